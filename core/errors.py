@@ -1,0 +1,129 @@
+"""One error family for trueslope, and its typed warnings.
+
+Every error a user can cause derives from :class:`TrueslopeError`; the ones
+about bad values also derive from :class:`ValueError` so callers may catch
+either. Messages are written for a technician: which file, which line, what
+was expected.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+
+
+class TrueslopeError(Exception):
+    """Base of every error trueslope raises on purpose."""
+
+
+class CaptureError(TrueslopeError, ValueError):
+    """A capture file could not be read as a waveform.
+
+    Parameters
+    ----------
+    message : str
+        What was wrong and what was expected.
+    path : str or Path, optional
+        The capture file.
+    line : int, optional
+        1-based line number in the file, where one applies.
+    column : int, optional
+        1-based column number, where one applies.
+    """
+
+    def __init__(self, message: str, path: str | Path | None = None,
+                 line: int | None = None, column: int | None = None) -> None:
+        self.message = message
+        self.path = None if path is None else str(path)
+        self.line = line
+        self.column = column
+        super().__init__(self.__str__())
+
+    def __str__(self) -> str:
+        where = []
+        if self.path:
+            where.append(Path(self.path).name)
+        if self.line is not None:
+            where.append(f"line {self.line}")
+        if self.column is not None:
+            where.append(f"column {self.column}")
+        prefix = ", ".join(where)
+        return f"{prefix}: {self.message}" if prefix else self.message
+
+
+class CaptureFormatError(CaptureError):
+    """The text or binary layout is not one trueslope understands."""
+
+
+class EmptyCaptureError(CaptureError):
+    """The file holds no data at all, or no numeric rows."""
+
+
+class RaggedRowsError(CaptureFormatError):
+    """A data row has a different number of fields from the others."""
+
+
+class UnknownUnitError(CaptureFormatError):
+    """A column's unit is not one of s, ms, us, ns, V, mV, uV, kV."""
+
+
+class TimeAxisError(CaptureError):
+    """The time column goes backwards or repeats."""
+
+
+class NonFiniteDataError(CaptureError):
+    """A run of NaN or infinite samples in the data."""
+
+
+class TooFewSamplesError(CaptureError):
+    """Too few samples to measure anything."""
+
+
+class NoSampleIntervalError(CaptureError):
+    """No time column, no interval in the preamble and none given."""
+
+
+class ChannelNotFoundError(CaptureError, KeyError):
+    """The requested channel does not exist in the capture."""
+
+    def __str__(self) -> str:  # KeyError would quote the message
+        return CaptureError.__str__(self)
+
+
+class AnalysisError(TrueslopeError, ValueError):
+    """The capture was read but cannot be measured as a ramp."""
+
+
+class NotASawtoothError(AnalysisError):
+    """The waveform is not a sawtooth (a triangle, square, sine, DC...)."""
+
+
+class NoFullCycleError(AnalysisError):
+    """Not one full ramp cycle lies inside the record."""
+
+
+class SettingsError(TrueslopeError, ValueError):
+    """A setting is out of its allowed range or cannot be parsed."""
+
+
+class Cancelled(TrueslopeError):
+    """The caller's cancel flag was raised; the work stopped cleanly."""
+
+
+@dataclass(frozen=True)
+class TrueslopeWarning:
+    """A typed, non-fatal finding attached to a result.
+
+    Attributes
+    ----------
+    code : str
+        Stable machine-readable identifier, e.g. ``"truncated-last-line"``.
+    message : str
+        Sentence for the user.
+    """
+
+    code: str
+    message: str
+
+    def __str__(self) -> str:
+        return self.message

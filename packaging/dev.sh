@@ -1,0 +1,63 @@
+#!/usr/bin/env bash
+# One entry point for set-up on a fresh machine, then the job or the tests.
+#   bash packaging/dev.sh run  [trueslope arguments]  -> opens the window on a bundled sample
+#   bash packaging/dev.sh test [pytest arguments]     -> runs the whole test suite
+# Creates (or reuses) the virtual environment .venv at the project root.
+set -euo pipefail
+ROOT="$(cd "$(dirname "${BASH_SOURCE[0]}")/.." && pwd)"
+cd "$ROOT"
+PY="${PYTHON:-python3}"
+
+need_debs() {
+    # Libraries Qt's offscreen/xcb platforms load, plus ngspice for the
+    # independent-simulator test. Installed only when missing and when root.
+    local missing=()
+    for p in libegl1 libgl1 libxkbcommon0 libxkbcommon-x11-0 libfontconfig1 libdbus-1-3 \
+             libglib2.0-0 libxcb-cursor0 libxcb-icccm4 libxcb-keysyms1 libxcb-shape0 \
+             libxcb-xinerama0 libxcb-randr0 libxcb-render-util0 libxcb-image0 fonts-dejavu-core ngspice "$@"; do
+        dpkg -s "$p" >/dev/null 2>&1 || missing+=("$p")
+    done
+    if [ "${#missing[@]}" -gt 0 ]; then
+        if [ "$(id -u)" = 0 ] && command -v apt-get >/dev/null; then
+            echo "installing Debian packages: ${missing[*]}" >&2
+            apt-get update -qq >/dev/null
+            DEBIAN_FRONTEND=noninteractive apt-get install -y -qq --no-install-recommends "${missing[@]}" >/dev/null
+        else
+            echo "note: missing Debian packages (install them as root): ${missing[*]}" >&2
+        fi
+    fi
+}
+
+setup_venv() {
+    if [ ! -x .venv/bin/python ]; then
+        "$PY" -m venv .venv
+    fi
+    local stamp=.venv/.trueslope-installed
+    if [ ! -f "$stamp" ] || [ pyproject.toml -nt "$stamp" ]; then
+        .venv/bin/python -m pip install -q --upgrade pip >/dev/null
+        .venv/bin/python -m pip install -q -e ".[test]"
+        touch "$stamp"
+    fi
+}
+
+cmd="${1:-run}"; shift || true
+case "$cmd" in
+    run)
+        need_debs
+        setup_venv
+        if [ "$#" -eq 0 ]; then
+            set -- open sample_captures/film_cap_ramp.csv
+        fi
+        exec .venv/bin/trueslope "$@"
+        ;;
+    test)
+        need_debs
+        setup_venv
+        export QT_QPA_PLATFORM=offscreen
+        exec .venv/bin/python -m pytest -q "$@"
+        ;;
+    *)
+        echo "usage: bash packaging/dev.sh run|test [arguments]" >&2
+        exit 2
+        ;;
+esac
