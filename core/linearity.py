@@ -1,0 +1,398 @@
+"""Per-cycle fits, the coherent average of all cycles, and the summary figures.
+
+Definitions (stated in the README's "Measurement definitions"):
+
+- fit window: each ramp trimmed by ``trim_fraction`` of its duration at each
+  end, or an explicit window in seconds from the ramp start;
+- best-fit line: least squares over the window (IEEE Std 1241 independently
+  based line); terminal line: through the window's end points (IEEE Std 1241
+  terminal-based line);
+- peak deviation: largest |smoothed residual| of the averaged cycle against
+  the best-fit line; ``nonlinearity_pct = 100 * peak / fitted span``;
+- sweep errors (Millman and Taub, *Pulse, Digital and Switching Waveforms*,
+  time-base generators): slope error ``e_s = (v'(a) - v'(b)) / v'(a)``,
+  displacement error ``e_d`` = largest deviation from the chord / swing,
+  transmission error ``e_t = (v'(a) T - V_s) / (v'(a) T)``.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import signal, stats
+
+from .capture import CancelFn, ProgressFn
+from .errors import AnalysisError, Cancelled
+from .fit import fit_line
+from .results import AveragedCycle, CycleFigures, LineFit, NoiseFloor, Segmentation
+
+#: Samples handled per vectorised block: bounds the working memory.
+BLOCK_SAMPLES = 1_000_000
+#: Savitzky-Golay polynomial order for the systematic residual.
+SMOOTH_ORDER = 3
+#: The resolution floor is this many standard deviations of the smoothed averaged residual.
+FLOOR_SIGMAS = 4.0
+#: Fraction of the ramp at each end used for the start and end levels.
+LEVEL_FRACTION = 0.03
+#: Robust z-score beyond which a cycle is marked outlying.
+OUTLIER_Z = 5.0
+
+
+@dataclass(frozen=True)
+class _CycleArrays:
+    ramp_start_s: np.ndarray
+    ramp_time_s: np.ndarray
+    slope: np.ndarray
+    intercept: np.ndarray
+    slope_se: np.ndarray
+    dof: np.ndarray
+    peak: np.ndarray
+    terminal_peak: np.ndarray
+    span: np.ndarray
+    terminal_span: np.ndarray
+    start_v: np.ndarray
+    end_v: np.ndarray
+    ssr: np.ndarray
+    n_win: np.ndarray
+
+
+def _window_bounds(ramp_time_s: np.ndarray, trim: float,
+                   window_s: tuple[float, float] | None) -> tuple[np.ndarray, np.ndarray]:
+    if window_s is None:
+        return trim * ramp_time_s, (1.0 - trim) * ramp_time_s
+    a = np.full_like(ramp_time_s, float(window_s[0]))
+    b = np.minimum(float(window_s[1]), ramp_time_s)
+    return a, b
+
+
+def adc_step(v: np.ndarray) -> float | None:
+    """Quantisation step of the samples, volts, or None when they are not on a grid.
+
+    The step is the smallest spacing between distinct sample values, accepted
+    when nearly all spacings are whole multiples of it.
+    """
+    sub = v[:: max(1, v.size // 1_000_000)]
+    u = np.unique(sub)
+    if u.size < 3 or u.size > 0.5 * sub.size:
+        return None
+    d = np.diff(u)
+    step = float(np.percentile(d, 5))
+    if step <= 0:
+        return None
+    ratio = d / step
+    near = np.abs(ratio - np.round(ratio)) < 0.05
+    return step if np.mean(near) > 0.95 else None
+
+
+def cycle_pass(x: np.ndarray, dt: float, t0: float, seg: Segmentation, trim: float,
+               window_s: tuple[float, float] | None, bins: int,
+               progress: ProgressFn | None = None, cancel: CancelFn | None = None,
+               ) -> tuple[_CycleArrays, dict[str, np.ndarray]]:
+    """Fit every cycle and accumulate the phase-binned average, block by block.
+
+    Parameters
+    ----------
+    x : ndarray
+        Samples in the measurement frame (mirrored for a falling ramp), volts.
+    dt, t0 : float
+        Sample interval and first-sample time, seconds.
+    seg : Segmentation
+    trim, window_s : fit window (see :class:`~trueslope.core.settings.Settings`).
+    bins : int
+        Phase bins of the averaged cycle.
+
+    Returns
+    -------
+    (cycles, accumulators)
+    """
+    rs = seg.ramp_start_s
+    re = seg.ramp_end_s
+    T = re - rs
+    i0 = np.ceil((rs - t0) / dt - 1e-9).astype(np.int64)
+    i1 = np.floor((re - t0) / dt + 1e-9).astype(np.int64) + 1
+    i0 = np.clip(i0, 0, x.size)
+    i1 = np.clip(i1, 0, x.size)
+    L = i1 - i0
+    if np.any(L < 4):
+        raise AnalysisError("a ramp holds fewer than 4 samples: the capture is too coarse "
+                            "(sample faster, or show fewer cycles)")
+    wa, wb = _window_bounds(T, trim, window_s)
+    nc = rs.size
+    out = {k: np.zeros(nc) for k in ("slope", "intercept", "se", "dof", "peak", "tpeak",
+                                      "span", "tspan", "start", "end", "ssr", "nwin")}
+    acc = {k: np.zeros(bins) for k in ("n", "u", "y", "r", "rr")}
+    cum = np.cumsum(L)
+    c0 = 0
+    while c0 < nc:
+        if cancel is not None and cancel():
+            raise Cancelled("analysis cancelled")
+        c1 = int(np.searchsorted(cum, (cum[c0 - 1] if c0 else 0) + BLOCK_SAMPLES, side="right"))
+        c1 = max(c1, c0 + 1)
+        c1 = min(c1, nc)
+        sl = slice(c0, c1)
+        Lb = L[sl]
+        nb = c1 - c0
+        offs = np.cumsum(Lb) - Lb
+        tot = int(Lb.sum())
+        cid = np.repeat(np.arange(nb), Lb)
+        idx = np.arange(tot) + np.repeat(i0[sl] - offs, Lb)
+        tt = (idx * dt + t0) - rs[sl][cid]
+        y = x[idx]
+        win = (tt >= wa[sl][cid]) & (tt <= wb[sl][cid])
+        wf = win.astype(float)
+        nw = np.bincount(cid, wf, nb)
+        if np.any(nw < 3):
+            raise AnalysisError("the fit window holds fewer than 3 samples of a ramp; "
+                                "widen the window or lower the trim fraction")
+        xm = np.bincount(cid, wf * tt, nb) / nw
+        ym = np.bincount(cid, wf * y, nb) / nw
+        xc = tt - xm[cid]
+        yc = y - ym[cid]
+        sxx = np.bincount(cid, wf * xc * xc, nb)
+        b = np.bincount(cid, wf * xc * yc, nb) / sxx
+        a = ym - b * xm
+        r = yc - b[cid] * xc
+        ssr = np.bincount(cid, wf * r * r, nb)
+        out["peak"][sl] = np.maximum.reduceat(np.abs(r) * wf, offs)
+        # terminal line through the means of the first and last k window samples
+        k = np.maximum(1.0, np.floor(nw / 50.0))
+        head = win & (tt < wa[sl][cid] + k[cid] * dt)
+        tail = win & (tt > wb[sl][cid] - k[cid] * dt)
+        hn = np.maximum(np.bincount(cid, head, nb), 1)
+        tn = np.maximum(np.bincount(cid, tail, nb), 1)
+        ht = np.bincount(cid, head * tt, nb) / hn
+        hy = np.bincount(cid, head * y, nb) / hn
+        tlt = np.bincount(cid, tail * tt, nb) / tn
+        tly = np.bincount(cid, tail * y, nb) / tn
+        bt = (tly - hy) / np.where(tlt != ht, tlt - ht, np.inf)
+        at = hy - bt * ht
+        rt = y - (at[cid] + bt[cid] * tt)
+        out["tpeak"][sl] = np.maximum.reduceat(np.abs(rt) * wf, offs)
+        out["tspan"][sl] = bt * (wb[sl] - wa[sl])
+        # start and end levels: local means near the ramp ends, moved to the ends along the slope
+        lf = LEVEL_FRACTION * T[sl]
+        s_m = tt <= np.maximum(lf[cid], 1.5 * dt)
+        e_m = tt >= (T[sl] - np.maximum(lf, 1.5 * dt))[cid]
+        sn = np.maximum(np.bincount(cid, s_m, nb), 1)
+        en = np.maximum(np.bincount(cid, e_m, nb), 1)
+        out["start"][sl] = (np.bincount(cid, s_m * y, nb) - b * np.bincount(cid, s_m * tt, nb)) / sn
+        out["end"][sl] = (np.bincount(cid, e_m * y, nb) / en
+                          + b * (T[sl] - np.bincount(cid, e_m * tt, nb) / en))
+        out["slope"][sl] = b
+        out["intercept"][sl] = a
+        out["dof"][sl] = nw - 2
+        out["se"][sl] = np.sqrt(ssr / np.maximum(nw - 2, 1) / sxx)
+        out["span"][sl] = b * (wb[sl] - wa[sl])
+        out["ssr"][sl] = ssr
+        out["nwin"][sl] = nw
+        # phase-binned accumulation of the whole ramp
+        u = tt / T[sl][cid]
+        bi = np.clip((u * bins).astype(np.int64), 0, bins - 1)
+        acc["n"] += np.bincount(bi, minlength=bins)
+        acc["u"] += np.bincount(bi, u, bins)
+        acc["y"] += np.bincount(bi, y, bins)
+        acc["r"] += np.bincount(bi, r, bins)
+        acc["rr"] += np.bincount(bi, r * r, bins)
+        c0 = c1
+        if progress is not None:
+            progress(c1 / nc)
+    cyc = _CycleArrays(ramp_start_s=rs, ramp_time_s=T, slope=out["slope"],
+                       intercept=out["intercept"], slope_se=out["se"], dof=out["dof"],
+                       peak=out["peak"], terminal_peak=out["tpeak"], span=out["span"],
+                       terminal_span=out["tspan"], start_v=out["start"], end_v=out["end"],
+                       ssr=out["ssr"], n_win=out["nwin"])
+    return cyc, acc
+
+
+def _odd(n: int) -> int:
+    return n if n % 2 else n + 1
+
+
+def smoothing_window(n_points: int) -> int:
+    """Savitzky-Golay window (points) for a residual of ``n_points``: about 1/20 of it."""
+    w = _odd(max(SMOOTH_ORDER + 4, n_points // 20))
+    return min(w, _odd(max(SMOOTH_ORDER + 2, n_points)) - (0 if n_points % 2 else 2))
+
+
+@dataclass(frozen=True)
+class AverageResult:
+    averaged: AveragedCycle
+    noise: NoiseFloor
+    derivative_a: float
+    derivative_b: float
+    smooth_v: np.ndarray  # smoothed averaged curve on the window bins (measurement frame)
+    t_win: np.ndarray
+
+
+def average_cycle(acc: dict[str, np.ndarray], ramp_time_s: float, trim: float,
+                  window_s: tuple[float, float] | None, mirrored: bool,
+                  noise_fallback_v: float, step_v: float | None) -> AverageResult:
+    """Build the averaged cycle, fit its line, smooth its residual, find the noise floor."""
+    n = acc["n"]
+    keep = n > 0
+    cnt = n[keep]
+    u = acc["u"][keep] / cnt
+    y = acc["y"][keep] / cnt
+    rm = acc["r"][keep] / cnt
+    var = np.maximum(acc["rr"][keep] / cnt - rm * rm, 0.0)
+    multi = cnt >= 2
+    if np.count_nonzero(multi) >= 0.5 * cnt.size:
+        noise_rms = float(np.sqrt(np.sum(var[multi] * cnt[multi]) / np.sum(cnt[multi])))
+        sd = np.sqrt(np.where(multi, var, noise_rms ** 2))
+    else:
+        noise_rms = float(noise_fallback_v)
+        sd = np.full(cnt.size, noise_rms)
+    stderr = np.maximum(sd, 1e-15) / np.sqrt(cnt)
+    t = u * ramp_time_s
+    if window_s is None:
+        ta, tb = trim * ramp_time_s, (1.0 - trim) * ramp_time_s
+    else:
+        ta, tb = float(window_s[0]), min(float(window_s[1]), ramp_time_s)
+    inw = (t >= ta) & (t <= tb)
+    if np.count_nonzero(inw) < SMOOTH_ORDER + 3:
+        raise AnalysisError("the fit window holds too few points of the averaged cycle")
+    fit = fit_line(t[inw], y[inw], weights=cnt[inw])
+    resid = y - fit.at(t)
+    W = smoothing_window(int(np.count_nonzero(inw)))
+    # smooth over the window widened by half a smoothing length where the ramp allows,
+    # so the window's edges get centred estimates (the reset edges stay outside)
+    iw = np.flatnonzero(inw)
+    lo_i = max(0, iw[0] - W // 2)
+    hi_i = min(t.size, iw[-1] + 1 + W // 2)
+    ext = slice(lo_i, hi_i)
+    sm_ext = signal.savgol_filter(resid[ext], W, SMOOTH_ORDER, mode="interp")
+    sel = inw[ext]
+    sm = sm_ext[sel]
+    tw = t[inw]
+    rw = resid[inw]
+    smooth_full = np.full(resid.shape, np.nan)
+    smooth_full[inw] = sm
+    curve = fit.at(tw) + sm
+    d_a, d_b = _end_derivatives(tw, rw, stderr[inw], fit.slope_v_per_s)
+    chord_b = (curve[-1] - curve[0]) / (tw[-1] - tw[0])
+    term = curve - (curve[0] + chord_b * (tw - tw[0]))
+    term_full = np.full(resid.shape, np.nan)
+    term_full[inw] = term
+    # noise left on one point of the smoothed residual
+    hp = rw - sm
+    point_sd = max(float(np.sqrt(np.mean(stderr[inw] ** 2))), float(np.std(hp)))
+    gain = float(np.sqrt(np.sum(signal.savgol_coeffs(W, SMOOTH_ORDER) ** 2)))
+    sm_sd = point_sd * gain
+    span = abs(fit.slope_v_per_s * (tb - ta))
+    floor = 100.0 * FLOOR_SIGMAS * sm_sd / span if span > 0 else math.inf
+    noise = NoiseFloor(noise_rms_v=noise_rms, adc_step_v=step_v,
+                       averaged_noise_rms_v=sm_sd, nonlinearity_floor_pct=floor)
+    av = AveragedCycle(time_s=t, voltage_v=-y if mirrored else y, stderr_v=stderr, count=cnt,
+                       in_window=inw, residual_v=resid, smoothed_residual_v=smooth_full,
+                       terminal_residual_v=term_full, ramp_time_s=ramp_time_s,
+                       window_start_s=ta, window_end_s=tb, fit=fit, mirrored=mirrored)
+    return AverageResult(averaged=av, noise=noise, derivative_a=d_a, derivative_b=d_b,
+                         smooth_v=curve, t_win=tw)
+
+
+#: Highest polynomial degree tried for the slope at the window's ends.
+MAX_DERIVATIVE_DEGREE = 6
+
+
+def _end_derivatives(t: np.ndarray, r: np.ndarray, se: np.ndarray,
+                     slope: float) -> tuple[float, float]:
+    """Slope of the averaged ramp at the window's start and end, volts per second.
+
+    The residual is fitted with Legendre polynomials of degree 0 to
+    ``MAX_DERIVATIVE_DEGREE``, weighted by the bins' standard errors; the
+    degree with the lowest Bayesian information criterion
+    ``chi2 + k ln n`` is kept, so a ramp straight within its noise gets
+    exactly the fitted line's slope at both ends.
+    """
+    n = t.size
+    x = 2.0 * (t - t[0]) / (t[-1] - t[0]) - 1.0
+    w = 1.0 / np.maximum(se, 1e-300)
+    best = (math.inf, np.zeros(1))
+    for deg in range(0, min(MAX_DERIVATIVE_DEGREE, n - 2) + 1):
+        c = np.polynomial.legendre.legfit(x, r, deg, w=w)
+        chi2 = float(np.sum(((r - np.polynomial.legendre.legval(x, c)) * w) ** 2))
+        bic = chi2 + (deg + 1) * math.log(n)
+        if bic < best[0] - 1e-9:
+            best = (bic, c)
+    dc = np.polynomial.legendre.legder(best[1])
+    scale = 2.0 / (t[-1] - t[0])
+    d = np.polynomial.legendre.legval(np.array([-1.0, 1.0]), dc) * scale if dc.size else np.zeros(2)
+    return slope + float(d[0]), slope + float(d[1])
+
+
+def end_levels(av: AveragedCycle) -> tuple[float, float]:
+    """Start and end levels of the averaged ramp (measurement frame), volts.
+
+    A line through the first (last) ``LEVEL_FRACTION`` of the ramp, evaluated
+    at the ramp's start (end).
+    """
+    t = av.time_s
+    y = av.measured_v
+    T = av.ramp_time_s
+    out = []
+    for m, at in (((t <= LEVEL_FRACTION * T), 0.0), ((t >= (1 - LEVEL_FRACTION) * T), T)):
+        if np.count_nonzero(m) < 3:
+            order = np.argsort(np.abs(t - at))[:3]
+            m = np.zeros(t.size, bool)
+            m[order] = True
+        tb, ta_ = t[m], y[m]
+        if np.ptp(tb) > 0:
+            p = np.polyfit(tb, ta_, 1, w=np.sqrt(av.count[m]))
+            out.append(float(np.polyval(p, at)))
+        else:
+            out.append(float(np.mean(ta_)))
+    return out[0], out[1]
+
+
+def robust_outliers(*series: np.ndarray) -> np.ndarray:
+    """Mark entries lying more than ``OUTLIER_Z`` robust standard deviations from the median."""
+    flag = np.zeros(series[0].size, dtype=bool)
+    if series[0].size < 5:
+        return flag
+    for s in series:
+        med = np.median(s)
+        mad = 1.4826 * np.median(np.abs(s - med))
+        scale = max(mad, 1e-3 * abs(med), 1e-300)
+        flag |= np.abs(s - med) > OUTLIER_Z * scale
+    return flag
+
+
+def slope_ci(fit: LineFit, slopes: np.ndarray) -> tuple[float, float]:
+    """95 % interval of the mean slope: the spread of the per-cycle slopes (Student t),
+    never narrower than the pooled least-squares interval."""
+    half_ols = 0.5 * (fit.slope_ci95_v_per_s[1] - fit.slope_ci95_v_per_s[0])
+    half = half_ols
+    if slopes.size >= 3:
+        sd = float(np.std(slopes, ddof=1))
+        half = max(half, float(stats.t.ppf(0.975, slopes.size - 1)) * sd / math.sqrt(slopes.size))
+    b = fit.slope_v_per_s
+    return b - half, b + half
+
+
+def build_cycles(cyc: _CycleArrays, seg: Segmentation, sign: float) -> tuple[CycleFigures, ...]:
+    """Per-cycle records in true polarity."""
+    period = seg.period_s
+    retrace = seg.retrace_time_s
+    tq = stats.t.ppf(0.975, np.maximum(cyc.dof, 1))
+    nl = 100.0 * cyc.peak / np.abs(cyc.span)
+    tnl = 100.0 * cyc.terminal_peak / np.abs(cyc.terminal_span)
+    out_flag = robust_outliers(cyc.slope, cyc.ramp_time_s, nl)
+    recs = []
+    for i in range(cyc.slope.size):
+        b = sign * cyc.slope[i]
+        h = tq[i] * cyc.slope_se[i]
+        start = sign * cyc.start_v[i]
+        end = sign * cyc.end_v[i]
+        recs.append(CycleFigures(
+            index=i, ramp_start_s=float(cyc.ramp_start_s[i]), ramp_time_s=float(cyc.ramp_time_s[i]),
+            retrace_time_s=float(retrace[i]), period_s=float(period[i]),
+            offset_v=float(sign * cyc.intercept[i]), start_v=float(start), end_v=float(end),
+            amplitude_v=float(abs(end - start)), slope_v_per_s=float(b),
+            slope_ci95_v_per_s=(float(b - h), float(b + h)),
+            peak_deviation_v=float(cyc.peak[i]), nonlinearity_pct=float(nl[i]),
+            terminal_nonlinearity_pct=float(tnl[i]),
+            residual_rms_v=float(math.sqrt(cyc.ssr[i] / cyc.n_win[i])),
+            outlier=bool(out_flag[i])))
+    return tuple(recs)

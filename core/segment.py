@@ -1,0 +1,285 @@
+"""Cycle segmentation of a sawtooth record.
+
+Steps: robust levels from the amplitude histogram, hysteresis thresholds at
+30 % and 70 % of the span, a Schmitt-trigger pass that finds every slow and
+fast transition, the direction from which of the two is the slow one, reset
+edges timed at the 50 % reference level by linear interpolation (a fraction
+of a sample), and the ramp and retrace of each full cycle.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .errors import NoFullCycleError, NotASawtoothError
+from .levels import ramp_extremes, state_levels
+from .results import Segmentation, StateLevels
+
+#: Hysteresis thresholds as fractions of the span between the ramp levels.
+LOWER_THRESHOLD_FRACTION = 0.30
+UPPER_THRESHOLD_FRACTION = 0.70
+#: A sawtooth's slow edge must take at least this many times as long as its fast edge.
+MIN_EDGE_RATIO = 4.0
+
+
+def estimate_noise_rms(x: np.ndarray) -> float:
+    """Sample-to-sample noise, volts RMS, from the median absolute first difference.
+
+    ``sigma = 1.4826 * MAD(diff(x)) / sqrt(2)``; the ramp's own slope and the
+    rare reset edges barely move a median.
+    """
+    step = max(1, x.size // 2_000_000)
+    d = np.diff(x[: (x.size // step) * step].reshape(-1, step)[:, 0]) if step > 1 else np.diff(x)
+    if d.size == 0:
+        return 0.0
+    med = np.median(d)
+    return float(1.4826 * np.median(np.abs(d - med)) / np.sqrt(2.0))
+
+
+def _crossings_down(x: np.ndarray, level: float) -> np.ndarray:
+    """Index i of every sample with x[i-1] >= level > x[i]."""
+    b = x < level
+    return np.flatnonzero(b[1:] & ~b[:-1]) + 1
+
+
+def _interp_crossing(x: np.ndarray, i: np.ndarray, level: float) -> np.ndarray:
+    """Fractional sample index where the segment (i-1, i) crosses ``level``."""
+    a = x[i - 1]
+    b = x[i]
+    den = np.where(a != b, a - b, 1.0)
+    return (i - 1) + np.clip((a - level) / den, 0.0, 1.0)
+
+
+def _transitions(x: np.ndarray, lower: float, upper: float) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """Schmitt-trigger transitions.
+
+    Returns
+    -------
+    up_end, up_start, down_end, down_start : ndarray of int
+        For each low-to-high transition, the first sample above ``upper``
+        and the last sample below ``lower`` before it; likewise for
+        high-to-low transitions.
+    """
+    above = x > upper
+    below = x < lower
+    enter_hi = np.flatnonzero(above[1:] & ~above[:-1]) + 1
+    enter_lo = np.flatnonzero(below[1:] & ~below[:-1]) + 1
+    leave_hi = np.flatnonzero(above[:-1] & ~above[1:])
+    leave_lo = np.flatnonzero(below[:-1] & ~below[1:])
+    if above[0]:
+        enter_hi = np.concatenate(([0], enter_hi))
+    if below[0]:
+        enter_lo = np.concatenate(([0], enter_lo))
+    ev_idx = np.concatenate((enter_hi, enter_lo))
+    ev_lab = np.concatenate((np.ones(enter_hi.size, np.int8), np.zeros(enter_lo.size, np.int8)))
+    order = np.argsort(ev_idx, kind="stable")
+    ev_idx = ev_idx[order]
+    ev_lab = ev_lab[order]
+    if ev_idx.size == 0:
+        e = np.zeros(0, dtype=np.int64)
+        return e, e, e, e
+    change = np.concatenate(([False], ev_lab[1:] != ev_lab[:-1]))
+    up_end = ev_idx[change & (ev_lab == 1)]
+    down_end = ev_idx[change & (ev_lab == 0)]
+    # last sample below `lower` before each up transition, above `upper` before each down one
+    k = np.searchsorted(leave_lo, up_end, side="left") - 1
+    up_start = np.where(k >= 0, leave_lo[np.maximum(k, 0)], 0)
+    k = np.searchsorted(leave_hi, down_end, side="left") - 1
+    down_start = np.where(k >= 0, leave_hi[np.maximum(k, 0)], 0)
+    return up_end, up_start, down_end, down_start
+
+
+def _window_argext(x: np.ndarray, starts: np.ndarray, width: int, kind: str) -> np.ndarray:
+    """Index of the max (or min) of x over [start, start + width) for each start."""
+    n = x.size
+    starts = np.clip(starts, 0, max(0, n - 1))
+    offs = np.arange(width)
+    idx = np.minimum(starts[:, None] + offs[None, :], n - 1)
+    vals = x[idx]
+    j = np.argmax(vals, axis=1) if kind == "max" else np.argmin(vals, axis=1)
+    return idx[np.arange(idx.shape[0]), j]
+
+
+def segment(v: np.ndarray, sample_interval_s: float, t0_s: float = 0.0,
+            sync: np.ndarray | None = None) -> Segmentation:
+    """Find the full ramp cycles of a sawtooth record.
+
+    Parameters
+    ----------
+    v : ndarray
+        Ramp samples, volts.
+    sample_interval_s : float
+        Seconds between samples.
+    t0_s : float
+        Time of the first sample, seconds.
+    sync : ndarray, optional
+        Logic-level channel of the same length whose edges mark each reset.
+
+    Returns
+    -------
+    Segmentation
+
+    Raises
+    ------
+    NotASawtoothError
+        Flat record, or rise and fall of similar speed (triangle, sine, square).
+    NoFullCycleError
+        Fewer than two reset edges in the record.
+    """
+    x = np.asarray(v, dtype=float)
+    n = x.size
+    noise = estimate_noise_rms(x)
+    lo, hi = ramp_extremes(x)
+    span = hi - lo
+    if not span > max(8.0 * noise, 1e-12):
+        raise NotASawtoothError(
+            f"no ramp found: the signal spans {span:.3g} V, within its noise "
+            f"({noise:.3g} V RMS); is this the right channel?")
+    lower = lo + LOWER_THRESHOLD_FRACTION * span
+    upper = lo + UPPER_THRESHOLD_FRACTION * span
+    levels = StateLevels(low_v=lo, high_v=hi, method="histogram extremes",
+                         lower_threshold_v=lower, upper_threshold_v=upper)
+    if sync is not None:
+        return _segment_with_sync(x, np.asarray(sync, dtype=float), sample_interval_s, t0_s, levels)
+
+    up_end, up_start, down_end, down_start = _transitions(x, lower, upper)
+    # drop transitions that started before the record (no last-sample-on-the-other-side)
+    if up_end.size < 2 and down_end.size < 2:
+        raise NoFullCycleError(
+            "fewer than two reset edges in the record: capture at least two full "
+            "cycles (a longer time base or a faster ramp)")
+    up_dur = float(np.median(up_end - up_start)) if up_end.size else np.inf
+    down_dur = float(np.median(down_end - down_start)) if down_end.size else np.inf
+    if up_dur >= MIN_EDGE_RATIO * down_dur:
+        direction = "rising"
+    elif down_dur >= MIN_EDGE_RATIO * up_dur:
+        direction = "falling"
+    else:
+        shape = ("both edges are fast: it looks like a square or pulse wave"
+                 if max(up_dur, down_dur) < 0.05 * n / max(1, up_end.size) else
+                 "it rises and falls at similar rates: it looks like a triangle or sine wave")
+        raise NotASawtoothError(
+            f"not a sawtooth: {shape} (rise {up_dur:.0f} samples, fall {down_dur:.0f} "
+            "samples between the 30 % and 70 % levels)")
+
+    if direction == "falling":
+        # measure on the mirror image, where the ramp rises and resets downwards
+        x = -x
+        lo_m, hi_m = -hi, -lo
+        lower_m = lo_m + LOWER_THRESHOLD_FRACTION * span
+        upper_m = lo_m + UPPER_THRESHOLD_FRACTION * span
+        up_end, up_start, down_end, down_start = _transitions(x, lower_m, upper_m)
+    else:
+        lo_m = lo
+    mid = lo_m + 0.5 * span
+    if down_end.size < 2:
+        raise NoFullCycleError(
+            "fewer than two reset edges in the record: capture at least two full cycles")
+    # keep resets whose fast edge started inside the record
+    keep = down_start > 0
+    down_end, down_start = down_end[keep], down_start[keep]
+    if down_end.size < 2:
+        raise NoFullCycleError("fewer than two complete reset edges in the record")
+
+    # reset time: last 50 % crossing at or before the first sample below the lower threshold
+    cr = _crossings_down(x, mid)
+    j = np.searchsorted(cr, down_end, side="right") - 1
+    ok = j >= 0
+    down_end, down_start, j = down_end[ok], down_start[ok], j[ok]
+    reset_idx = _interp_crossing(x, cr[j], mid)
+
+    period_samples = float(np.median(np.diff(reset_idx))) if reset_idx.size > 1 else float(n)
+    fast = int(np.max(down_end - down_start)) if down_end.size else 1
+    width = int(min(max(4, 2 * fast + int(0.02 * period_samples)), max(4, int(0.25 * period_samples))))
+    # retrace extent: the fast edge's 90 % and 10 % crossings, extrapolated along the
+    # edge to the high and low levels (fraction-of-a-sample timing)
+    i50 = cr[j]
+    c90 = _crossings_down(x, lo_m + 0.9 * span)
+    c10 = _crossings_down(x, lo_m + 0.1 * span)
+    k90 = np.searchsorted(c90, i50, side="right") - 1
+    k10 = np.searchsorted(c10, i50, side="left")
+    ok90 = k90 >= 0
+    ok10 = k10 < c10.size
+    t90 = np.where(ok90, _interp_crossing(x, c90[np.clip(k90, 0, max(c90.size - 1, 0))],
+                                          lo_m + 0.9 * span) if c90.size else 0.0, -np.inf)
+    t10 = np.where(ok10, _interp_crossing(x, c10[np.clip(k10, 0, max(c10.size - 1, 0))],
+                                          lo_m + 0.1 * span) if c10.size else 0.0, np.inf)
+    fall = t10 - t90
+    ext = 0.125 * fall
+    edge_ok = (reset_idx - t90 < width) & (t10 - reset_idx < width) & np.isfinite(fall)
+    # fall back to the peak and trough next to the edge where the crossings are not clean
+    peak = _window_argext(x, down_start - width + 1, width, "max").astype(float)
+    trough = _window_argext(x, down_end, width, "min").astype(float)
+    peak = np.where(edge_ok, t90 - ext, peak)
+    trough = np.where(edge_ok, t10 + ext, trough)
+    trough = np.maximum(trough, peak + 1e-3)
+
+    dt = sample_interval_s
+    reset_t = t0_s + reset_idx * dt
+    ramp_start = t0_s + trough[:-1] * dt
+    ramp_end = t0_s + peak[1:] * dt
+    retrace_end = t0_s + trough[1:] * dt
+    good = ramp_end > ramp_start
+    if not np.any(good):
+        raise NoFullCycleError("no full ramp between two reset edges")
+    partial = int(peak[0] > 2) + int(trough[-1] < n - 3)
+    return Segmentation(
+        direction=direction, levels=levels, reset_times_s=reset_t,
+        ramp_start_s=ramp_start[good], ramp_end_s=ramp_end[good],
+        retrace_end_s=retrace_end[good], full_cycles=int(np.count_nonzero(good)),
+        partial_cycles=partial, source="signal")
+
+
+def _segment_with_sync(x: np.ndarray, s: np.ndarray, dt: float, t0: float,
+                       levels: StateLevels) -> Segmentation:
+    """Segment from the edges of a logic-level sync channel."""
+    n = x.size
+    if s.size != n:
+        raise NoFullCycleError("the sync channel has a different length from the ramp")
+    s_lo, s_hi = state_levels(s, "mode")
+    if not s_hi - s_lo > 8.0 * max(estimate_noise_rms(s), 1e-12):
+        raise NoFullCycleError("the sync channel shows no logic edges")
+    s_mid = 0.5 * (s_lo + s_hi)
+    band = 0.1 * (s_hi - s_lo)
+    up_end, _, down_end, _ = _transitions(s, s_mid - band, s_mid + band)
+    # pick the sync polarity at which the ramp jumps: compare the ramp just before and after
+    span = levels.high_v - levels.low_v
+    best = None
+    for edges in (up_end, down_end):
+        if edges.size < 2:
+            continue
+        period = float(np.median(np.diff(edges)))
+        g = max(2, int(0.05 * period))
+        before = x[np.clip(edges - g, 0, n - 1)]
+        after = x[np.clip(edges + g, 0, n - 1)]
+        jump = float(np.median(after - before))
+        if best is None or abs(jump) > abs(best[1]):
+            best = (edges, jump, period)
+    if best is None or abs(best[1]) < 0.3 * span:
+        raise NoFullCycleError(
+            "the sync channel's edges do not line up with the ramp's resets; "
+            "check the sync channel choice")
+    edges, jump, period = best
+    direction = "rising" if jump < 0 else "falling"
+    xm = x if direction == "rising" else -x
+    # fractional edge time at the sync channel's 50 % level
+    i = np.clip(edges, 1, n - 1)
+    a, b = s[i - 1], s[i]
+    den = np.where(a != b, b - a, 1.0)
+    reset_idx = (i - 1) + np.clip((s_mid - a) / den, 0.0, 1.0)
+    width = max(4, int(0.1 * period))
+    peak = _window_argext(xm, edges - width, 2 * width, "max")
+    trough = _window_argext(xm, np.maximum(peak, edges - width // 2), 2 * width, "min")
+    keep = (edges - width > 0) & (edges + 2 * width < n)
+    peak, trough, reset_idx = peak[keep], trough[keep], reset_idx[keep]
+    if peak.size < 2:
+        raise NoFullCycleError("fewer than two full cycles between sync edges")
+    ramp_start = t0 + trough[:-1] * dt
+    ramp_end = t0 + peak[1:] * dt
+    retrace_end = t0 + trough[1:] * dt
+    good = ramp_end > ramp_start
+    return Segmentation(
+        direction=direction, levels=levels, reset_times_s=t0 + reset_idx * dt,
+        ramp_start_s=ramp_start[good], ramp_end_s=ramp_end[good],
+        retrace_end_s=retrace_end[good], full_cycles=int(np.count_nonzero(good)),
+        partial_cycles=int(peak[0] > 2) + int(trough[-1] < n - 3), source="sync")
