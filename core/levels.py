@@ -20,8 +20,9 @@ def _histogram(x: np.ndarray, bins: int) -> tuple[np.ndarray, np.ndarray]:
     hi = float(np.max(x))
     if not np.isfinite(lo) or not np.isfinite(hi):
         raise AnalysisError("the record holds NaN or infinite samples")
-    if hi <= lo:
-        hi = lo + 1e-12
+    if hi - lo <= 1e-9 * max(1.0, abs(lo)):
+        pad = max(abs(lo) * 1e-6, 1e-9)
+        lo, hi = lo - pad, hi + pad
     counts, edges = np.histogram(x, bins=bins, range=(lo, hi))
     return counts, edges
 

@@ -1,0 +1,51 @@
+"""Small synthetic sawtooth captures for unit tests (test data, not references)."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from trueslope.core.capture import Capture
+
+
+def sawtooth(shape, cycles=12, samples_per_ramp=2000, retrace_samples=0.0, dt=1e-6,
+             phase=0.0, bits=None, full_scale=(-0.5, 5.5), noise_v=0.0, seed=0,
+             falling=False, extra_channels=None):
+    """A sawtooth whose ramp follows ``shape(u)`` for phase u in [0, 1).
+
+    The period is ``samples_per_ramp + retrace_samples`` samples (need not be whole);
+    the retrace is a straight fall from shape(1) to shape(0) over ``retrace_samples``.
+    """
+    period = samples_per_ramp + retrace_samples
+    n = int(np.ceil((cycles + 0.0) * period))
+    k = np.arange(n) + phase * period
+    pos = np.mod(k, period)
+    ramp = pos < samples_per_ramp
+    u = pos / samples_per_ramp
+    v = np.empty(n)
+    v[ramp] = shape(u[ramp])
+    if np.any(~ramp):
+        f = (pos[~ramp] - samples_per_ramp) / max(retrace_samples, 1e-12)
+        v[~ramp] = shape(np.ones(1))[0] + (shape(np.zeros(1))[0] - shape(np.ones(1))[0]) * f
+    if falling:
+        v = (full_scale[0] + full_scale[1]) - v
+    rng = np.random.default_rng(seed)
+    if noise_v:
+        v = v + rng.normal(0.0, noise_v, n)
+    if bits:
+        lo, hi = full_scale
+        q = (hi - lo) / 2 ** bits
+        v = lo + np.clip(np.round((v - lo) / q), 0, 2 ** bits - 1) * q
+    ch = {"CH1": v}
+    if extra_channels:
+        ch.update(extra_channels(n, pos, samples_per_ramp))
+    return Capture(source="synthetic.csv", channels=ch, sample_interval_s=dt)
+
+
+def straight(v0=0.2, v1=4.2):
+    return lambda u: v0 + (v1 - v0) * u
+
+
+def exponential(y, V=5.0):
+    """v = V (1 - exp(-t/tau)) over a ramp that reaches y V (exponential sweep)."""
+    x = -np.log(1.0 - y)
+    return lambda u: V * (1.0 - np.exp(-x * u))
