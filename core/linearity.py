@@ -270,14 +270,21 @@ def average_cycle(acc: dict[str, np.ndarray], ramp_time_s: float, trim: float,
     smooth_full = np.full(resid.shape, np.nan)
     smooth_full[inw] = sm
     curve = fit.at(tw) + sm
+    # The bins' standard errors come from the cycle-to-cycle spread; structure that
+    # repeats in every cycle (quantisation patterns, sampling-clock beats) is not in
+    # them. Scale them up so the smoothed model's scatter is consistent with them.
+    point_sd_random = float(np.sqrt(np.mean(stderr[inw] ** 2)))
+    hp_ratio = float(np.sqrt(np.mean(((rw - sm) / stderr[inw]) ** 2)
+                             * W / max(W - SMOOTH_ORDER - 1, 1)))
+    if hp_ratio > 1.0:
+        stderr = stderr * hp_ratio
     d_a, d_b = _end_derivatives(tw, rw, stderr[inw], fit.slope_v_per_s)
     chord_b = (curve[-1] - curve[0]) / (tw[-1] - tw[0])
     term = curve - (curve[0] + chord_b * (tw - tw[0]))
     term_full = np.full(resid.shape, np.nan)
     term_full[inw] = term
     # noise left on one point of the smoothed residual
-    hp = rw - sm
-    point_sd = max(float(np.sqrt(np.mean(stderr[inw] ** 2))), float(np.std(hp)))
+    point_sd = max(point_sd_random, float(np.std(rw - sm)) * math.sqrt(W / max(W - SMOOTH_ORDER - 1, 1)))
     gain = float(np.sqrt(np.sum(signal.savgol_coeffs(W, SMOOTH_ORDER) ** 2)))
     sm_sd = point_sd * gain
     span = abs(fit.slope_v_per_s * (tb - ta))

@@ -45,7 +45,8 @@ def straight(v0=0.2, v1=4.2):
     return lambda u: v0 + (v1 - v0) * u
 
 
-def exponential(y, V=5.0):
-    """v = V (1 - exp(-t/tau)) over a ramp that reaches y V (exponential sweep)."""
+def exponential(y, swing=4.0):
+    """v = V (1 - exp(-t/tau)) over a ramp that reaches y V = ``swing`` (exponential sweep)."""
+    V = swing / y
     x = -np.log(1.0 - y)
     return lambda u: V * (1.0 - np.exp(-x * u))
