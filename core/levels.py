@@ -23,7 +23,12 @@ def _histogram(x: np.ndarray, bins: int) -> tuple[np.ndarray, np.ndarray]:
     if hi - lo <= 1e-9 * max(1.0, abs(lo)):
         pad = max(abs(lo) * 1e-6, 1e-9)
         lo, hi = lo - pad, hi + pad
-    counts, edges = np.histogram(x, bins=bins, range=(lo, hi))
+    # equal-width bins by integer scaling: several times faster than numpy.histogram
+    scale = bins / (hi - lo)
+    idx = ((x - lo) * scale).astype(np.int64)
+    np.clip(idx, 0, bins - 1, out=idx)
+    counts = np.bincount(idx, minlength=bins)
+    edges = lo + np.arange(bins + 1) / scale
     return counts, edges
 
 

@@ -110,94 +110,108 @@ def cycle_pass(x: np.ndarray, dt: float, t0: float, seg: Segmentation, trim: flo
     rs = seg.ramp_start_s
     re = seg.ramp_end_s
     T = re - rs
-    i0 = np.ceil((rs - t0) / dt - 1e-9).astype(np.int64)
-    i1 = np.floor((re - t0) / dt + 1e-9).astype(np.int64) + 1
-    i0 = np.clip(i0, 0, x.size)
-    i1 = np.clip(i1, 0, x.size)
-    L = i1 - i0
-    if np.any(L < 4):
+    nc = rs.size
+    # fractional sample positions of each ramp's start and end
+    ps = (rs - t0) / dt
+    pe = (re - t0) / dt
+    r0 = np.clip(np.ceil(ps - 1e-9).astype(np.int64), 0, x.size)
+    r1 = np.clip(np.floor(pe + 1e-9).astype(np.int64) + 1, 0, x.size)
+    if np.any(r1 - r0 < 4):
         raise AnalysisError("a ramp holds fewer than 4 samples: the capture is too coarse "
                             "(sample faster, or show fewer cycles)")
     wa, wb = _window_bounds(T, trim, window_s)
-    nc = rs.size
+    w0 = np.clip(np.ceil(ps + wa / dt - 1e-9).astype(np.int64), r0, r1)
+    w1 = np.clip(np.floor(ps + wb / dt + 1e-9).astype(np.int64) + 1, w0, r1)
+    if np.any(w1 - w0 < 3):
+        raise AnalysisError("the fit window holds fewer than 3 samples of a ramp; "
+                            "widen the window or lower the trim fraction")
     out = {k: np.zeros(nc) for k in ("slope", "intercept", "se", "dof", "peak", "tpeak",
                                       "span", "tspan", "start", "end", "ssr", "nwin")}
-    acc = {k: np.zeros(bins) for k in ("n", "u", "y", "r", "rr")}
-    cum = np.cumsum(L)
+    acc = {k: np.zeros(bins + 1) for k in ("n", "u", "y", "r", "rr")}
     c0 = 0
     while c0 < nc:
         if cancel is not None and cancel():
             raise Cancelled("analysis cancelled")
-        c1 = int(np.searchsorted(cum, (cum[c0 - 1] if c0 else 0) + BLOCK_SAMPLES, side="right"))
-        c1 = max(c1, c0 + 1)
-        c1 = min(c1, nc)
+        c1 = int(np.searchsorted(r1, r0[c0] + BLOCK_SAMPLES, side="right"))
+        c1 = min(max(c1, c0 + 1), nc)
         sl = slice(c0, c1)
-        Lb = L[sl]
-        nb = c1 - c0
-        offs = np.cumsum(Lb) - Lb
-        tot = int(Lb.sum())
-        cid = np.repeat(np.arange(nb), Lb)
-        idx = np.arange(tot) + np.repeat(i0[sl] - offs, Lb)
-        tt = (idx * dt + t0) - rs[sl][cid]
-        y = x[idx]
-        win = (tt >= wa[sl][cid]) & (tt <= wb[sl][cid])
-        wf = win.astype(float)
-        nw = np.bincount(cid, wf, nb)
-        if np.any(nw < 3):
-            raise AnalysisError("the fit window holds fewer than 3 samples of a ramp; "
-                                "widen the window or lower the trim fraction")
-        xm = np.bincount(cid, wf * tt, nb) / nw
-        ym = np.bincount(cid, wf * y, nb) / nw
-        xc = tt - xm[cid]
-        yc = y - ym[cid]
-        sxx = np.bincount(cid, wf * xc * xc, nb)
-        b = np.bincount(cid, wf * xc * yc, nb) / sxx
-        a = ym - b * xm
-        r = yc - b[cid] * xc
-        ssr = np.bincount(cid, wf * r * r, nb)
-        out["peak"][sl] = np.maximum.reduceat(np.abs(r) * wf, offs)
-        # terminal line through the means of the first and last k window samples
-        k = np.maximum(1.0, np.floor(nw / 50.0))
-        head = win & (tt < wa[sl][cid] + k[cid] * dt)
-        tail = win & (tt > wb[sl][cid] - k[cid] * dt)
-        hn = np.maximum(np.bincount(cid, head, nb), 1)
-        tn = np.maximum(np.bincount(cid, tail, nb), 1)
-        ht = np.bincount(cid, head * tt, nb) / hn
-        hy = np.bincount(cid, head * y, nb) / hn
-        tlt = np.bincount(cid, tail * tt, nb) / tn
-        tly = np.bincount(cid, tail * y, nb) / tn
-        bt = (tly - hy) / np.where(tlt != ht, tlt - ht, np.inf)
-        at = hy - bt * ht
-        rt = y - (at[cid] + bt[cid] * tt)
-        out["tpeak"][sl] = np.maximum.reduceat(np.abs(rt) * wf, offs)
-        out["tspan"][sl] = bt * (wb[sl] - wa[sl])
+        base = int(r0[c0])
+        stop = int(r1[c1 - 1])
+        xs = x[base:stop]
+        m = xs.size
+        kk = np.arange(m, dtype=float)
+        # prefix sums: any sum over a contiguous range is a difference of two entries
+        cy = np.concatenate(([0.0], np.cumsum(xs)))
+        cky = np.concatenate(([0.0], np.cumsum(kk * xs)))
+        cyy = np.concatenate(([0.0], np.cumsum(xs * xs)))
+        a_ = w0[sl] - base
+        b_ = w1[sl] - base
+        L = (b_ - a_).astype(float)
+        sy = cy[b_] - cy[a_]
+        sky = cky[b_] - cky[a_]
+        syy = cyy[b_] - cyy[a_]
+        ybar = sy / L
+        kbar = 0.5 * (a_ + b_ - 1)
+        sxx_k = L * (L * L - 1.0) / 12.0
+        sxy_k = sky - kbar * sy
+        bk = sxy_k / sxx_k  # volts per sample
+        ssr = np.maximum(syy - L * ybar * ybar - bk * sxy_k, 0.0)
+        s0 = ps[sl] - base  # fractional ramp start, block samples
+        # per-sample cycle id over ramp + retrace: cycle c owns [r0_c, r0_c+1)
+        starts = r0[sl] - base
+        lens = np.diff(np.append(starts, m))
+        cid = np.repeat(np.arange(c1 - c0), lens)
+        line = ybar[cid] + bk[cid] * (kk - kbar[cid])
+        r = xs - line
+        absr = np.empty(m + 1)
+        np.abs(r, out=absr[:m])
+        absr[m] = 0.0
+        inter = np.empty(2 * (c1 - c0), dtype=np.int64)
+        inter[0::2] = a_
+        inter[1::2] = b_
+        out["peak"][sl] = np.maximum.reduceat(absr, inter)[0::2]
+        # terminal line through the means of the first and last h window samples
+        h = np.maximum(1, (b_ - a_) // 50)
+        hy = (cy[a_ + h] - cy[a_]) / h
+        hk = a_ + 0.5 * (h - 1)
+        ty = (cy[b_] - cy[b_ - h]) / h
+        tk = b_ - 1 - 0.5 * (h - 1)
+        bt = (ty - hy) / np.where(tk != hk, tk - hk, np.inf)
+        rt = xs - (hy[cid] + bt[cid] * (kk - hk[cid]))
+        np.abs(rt, out=absr[:m])
+        out["tpeak"][sl] = np.maximum.reduceat(absr, inter)[0::2]
+        out["tspan"][sl] = bt * (wb[sl] - wa[sl]) / dt
         # start and end levels: local means near the ramp ends, moved to the ends along the slope
-        lf = LEVEL_FRACTION * T[sl]
-        s_m = tt <= np.maximum(lf[cid], 1.5 * dt)
-        e_m = tt >= (T[sl] - np.maximum(lf, 1.5 * dt))[cid]
-        sn = np.maximum(np.bincount(cid, s_m, nb), 1)
-        en = np.maximum(np.bincount(cid, e_m, nb), 1)
-        out["start"][sl] = (np.bincount(cid, s_m * y, nb) - b * np.bincount(cid, s_m * tt, nb)) / sn
-        out["end"][sl] = (np.bincount(cid, e_m * y, nb) / en
-                          + b * (T[sl] - np.bincount(cid, e_m * tt, nb) / en))
-        out["slope"][sl] = b
-        out["intercept"][sl] = a
-        out["dof"][sl] = nw - 2
-        out["se"][sl] = np.sqrt(ssr / np.maximum(nw - 2, 1) / sxx)
-        out["span"][sl] = b * (wb[sl] - wa[sl])
+        e0 = r0[sl] - base
+        e1 = r1[sl] - base
+        g = np.maximum(2, np.round(LEVEL_FRACTION * (e1 - e0)).astype(np.int64))
+        ms = (cy[e0 + g] - cy[e0]) / g
+        me = (cy[e1] - cy[e1 - g]) / g
+        out["start"][sl] = ms - bk * (e0 + 0.5 * (g - 1) - s0)
+        out["end"][sl] = me + bk * ((pe[sl] - base) - (e1 - 1 - 0.5 * (g - 1)))
+        out["slope"][sl] = bk / dt
+        out["intercept"][sl] = ybar - bk * (kbar - s0)
+        out["dof"][sl] = L - 2
+        out["se"][sl] = np.sqrt(ssr / np.maximum(L - 2, 1) / sxx_k) / dt
+        out["span"][sl] = bk / dt * (wb[sl] - wa[sl])
         out["ssr"][sl] = ssr
-        out["nwin"][sl] = nw
-        # phase-binned accumulation of the whole ramp
-        u = tt / T[sl][cid]
-        bi = np.clip((u * bins).astype(np.int64), 0, bins - 1)
-        acc["n"] += np.bincount(bi, minlength=bins)
-        acc["u"] += np.bincount(bi, u, bins)
-        acc["y"] += np.bincount(bi, y, bins)
-        acc["r"] += np.bincount(bi, r, bins)
-        acc["rr"] += np.bincount(bi, r * r, bins)
+        out["nwin"][sl] = L
+        # phase-binned accumulation of every ramp sample; retrace samples go to a spare bin
+        inv = 1.0 / (T[sl] / dt)
+        u = (kk - s0[cid]) * inv[cid]
+        bi = (u * bins).astype(np.int64)
+        on_ramp = kk < (e1[cid])
+        bi[~on_ramp | (bi < 0)] = bins
+        np.minimum(bi, bins, out=bi)
+        acc["n"] += np.bincount(bi, minlength=bins + 1)
+        acc["u"] += np.bincount(bi, u, bins + 1)
+        acc["y"] += np.bincount(bi, xs, bins + 1)
+        acc["r"] += np.bincount(bi, r, bins + 1)
+        acc["rr"] += np.bincount(bi, r * r, bins + 1)
         c0 = c1
         if progress is not None:
             progress(c1 / nc)
+    acc = {k: v[:bins] for k, v in acc.items()}
     cyc = _CycleArrays(ramp_start_s=rs, ramp_time_s=T, slope=out["slope"],
                        intercept=out["intercept"], slope_se=out["se"], dof=out["dof"],
                        peak=out["peak"], terminal_peak=out["tpeak"], span=out["span"],
