@@ -1,0 +1,144 @@
+"""Start the bench window (``trueslope`` / ``trueslope open FILE``), or render a screenshot.
+
+:func:`launch` is what the command dispatcher in :mod:`trueslope.app.cli`
+calls once it has parsed the options.
+"""
+
+from __future__ import annotations
+
+import os
+import sys
+from pathlib import Path
+
+#: Size of the window in screenshot mode, pixels: wide enough for every panel.
+SCREENSHOT_SIZE = (1600, 1000)
+#: Longest wait for the analysis in screenshot mode, milliseconds.
+SCREENSHOT_TIMEOUT_MS = 300_000
+
+
+def _headless() -> bool:
+    return (sys.platform.startswith("linux") and not os.environ.get("DISPLAY")
+            and not os.environ.get("WAYLAND_DISPLAY"))
+
+
+def make_app(argv: list[str] | None = None):
+    """The QApplication (created once), with our names and pyqtgraph's options set."""
+    from PySide6 import QtWidgets
+    import pyqtgraph as pg
+
+    from .store import APPLICATION, ORGANISATION
+
+    app = QtWidgets.QApplication.instance()
+    if app is None:
+        app = QtWidgets.QApplication(argv if argv is not None else sys.argv[:1])
+    app.setOrganizationName(ORGANISATION)
+    app.setApplicationName(APPLICATION)
+    app.setApplicationDisplayName("trueslope")
+    # Antialiasing millions of points costs far more than it shows; the
+    # short fit and residual curves look fine without it too.
+    pg.setConfigOptions(antialias=False, useOpenGL=False)
+    return app
+
+
+def launch(path: str | None = None, channel: str | None = None, sync_channel: str | None = None,
+           trim: float | None = None, sample_interval: str | None = None,
+           screenshot: str | None = None) -> int:
+    """Open the bench window, optionally on a capture.
+
+    Parameters
+    ----------
+    path : str, optional
+        Capture to open.
+    channel, sync_channel : str, optional
+        Channel to measure and logic-level reset channel (name or 0-based index).
+    trim : float, optional
+        Fraction of each ramp trimmed at each end, 0 to 0.4 (not saved as the
+        user's default).
+    sample_interval : str, optional
+        Sample interval for files without a time column, e.g. ``"2u"`` (seconds).
+    screenshot : str, optional
+        Render the window with the analysis finished, save it to this PNG and exit.
+
+    Returns
+    -------
+    int
+        Exit status: 0, 1 when a screenshot run could not open or measure the
+        capture (the picture is saved all the same), 2 for a bad option.
+    """
+    from trueslope.core.errors import TrueslopeError
+    from trueslope.core.settings import Settings
+
+    interval_s = None
+    try:
+        if sample_interval is not None:
+            from trueslope.core.units import parse_si
+            interval_s = float(parse_si(sample_interval))
+            if not interval_s > 0:
+                raise ValueError(f"the sample interval must be positive, got {sample_interval}")
+        if trim is not None:
+            Settings(trim_fraction=trim)
+    except (TrueslopeError, ValueError) as exc:
+        print(f"trueslope open: {exc}", file=sys.stderr)
+        return 2
+    if screenshot and _headless() and not os.environ.get("QT_QPA_PLATFORM"):
+        os.environ["QT_QPA_PLATFORM"] = "offscreen"
+
+    app = make_app()
+    from .store import Store
+    from .window import MainWindow
+
+    store = Store.read_only() if screenshot else Store()
+    win = MainWindow(store)
+    win.sample_interval_s = interval_s
+    if trim is not None:
+        win.trim_box.blockSignals(True)
+        win.trim_box.setValue(100.0 * trim)
+        win.trim_box.blockSignals(False)
+        win.settings = win.settings.with_(trim_fraction=trim)
+    if screenshot:
+        win.resize(*SCREENSHOT_SIZE)
+    win.show()
+    if path:
+        win.open_file(path, channel=channel, sync_channel=sync_channel)
+    if screenshot:
+        return _screenshot(app, win, screenshot, bool(path))
+    return app.exec()
+
+
+def _screenshot(app, win, out: str, expect_analysis: bool) -> int:
+    """Wait for the analysis (or its failure), let the window paint, save it, close."""
+    from PySide6 import QtCore
+
+    outcome = {"ok": not expect_analysis, "message": ""}
+    loop = QtCore.QEventLoop()
+
+    def shown(_analysis) -> None:
+        outcome["ok"] = True
+        QtCore.QTimer.singleShot(300, loop.quit)
+
+    def failed(message: str) -> None:
+        outcome["message"] = message
+        QtCore.QTimer.singleShot(300, loop.quit)
+
+    win.analysis_shown.connect(shown)
+    win.job_failed.connect(failed)
+    win.job_cancelled.connect(lambda: failed("cancelled"))
+    if expect_analysis and win.busy:
+        QtCore.QTimer.singleShot(SCREENSHOT_TIMEOUT_MS, loop.quit)
+        loop.exec()
+    for _ in range(5):  # let layouts and the plots settle
+        app.processEvents()
+    if expect_analysis and not outcome["ok"] and not outcome["message"]:
+        outcome["message"] = "timed out waiting for the analysis"
+        win.cancel()
+    image = win.grab()
+    Path(out).parent.mkdir(parents=True, exist_ok=True)
+    saved = image.save(str(out), "PNG")
+    win.close()
+    if not saved:
+        print(f"trueslope open: could not write {out}", file=sys.stderr)
+        return 1
+    if not outcome["ok"]:
+        print(f"trueslope open: {outcome['message']}", file=sys.stderr)
+        return 1
+    return 0

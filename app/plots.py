@@ -1,0 +1,376 @@
+"""The trace view and the residual strip: one pyqtgraph layout, two plots, one time axis.
+
+The trace view draws the whole capture with the fitted line over the shown
+cycle (or over every cycle), and the analysis window as a band the user can
+drag. The residual strip below shares the time axis: the averaged cycle's
+residual is placed under the shown cycle, with the smoothed systematic part
+drawn over the raw points and the noise floor as a band. Its left axis is in
+volts (SI-prefixed by pyqtgraph), its right axis in percent of the fitted span.
+
+Millions of samples are drawn with pyqtgraph's peak downsampling and
+clip-to-view, set on the item after it has been added to the plot: in
+pyqtgraph 0.14 passing ``clipToView`` to the constructor of an item that is
+then added to a plot fails, because the item asks its view for its auto-range
+state before it has a view.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+import numpy as np
+import pyqtgraph as pg
+from PySide6 import QtCore, QtGui
+
+from . import theme
+from .jobs import TraceData
+
+#: Width of the left and right axes, pixels: fixed so that the two plots'
+#: time axes line up exactly.
+_AXIS_WIDTH = 72
+#: Narrowest analysis window the band may be dragged to, as a fraction of the ramp.
+MIN_WINDOW_FRACTION = 0.05
+
+
+def _pen(colour: Any, width: float = 1.0, style: QtCore.Qt.PenStyle | None = None) -> QtGui.QPen:
+    pen = pg.mkPen(colour, width=width)
+    pen.setCosmetic(True)
+    if style is not None:
+        pen.setStyle(style)
+    return pen
+
+
+class PercentAxis(pg.AxisItem):
+    """An axis that labels a volts view in percent of a span.
+
+    The view stays in volts; this axis only chooses round percentages for its
+    ticks and writes them, so the strip can show mV on the left and % of span
+    on the right of the same curve.
+    """
+
+    def __init__(self, orientation: str = "right", **kwargs: Any) -> None:
+        super().__init__(orientation, **kwargs)
+        self._pct_per_v = 0.0
+
+    def set_span(self, span_v: float) -> None:
+        """Set the span (volts) that counts as 100 %."""
+        self._pct_per_v = 100.0 / abs(span_v) if span_v and math.isfinite(span_v) else 0.0
+        self.picture = None
+        self.update()
+
+    def tickValues(self, minVal: float, maxVal: float, size: float):  # noqa: N802 (Qt naming)
+        k = self._pct_per_v
+        if not k:
+            return []
+        levels = super().tickValues(minVal * k, maxVal * k, size)
+        return [(spacing / k, [v / k for v in values]) for spacing, values in levels]
+
+    def tickStrings(self, values, scale, spacing):  # noqa: N802 (Qt naming)
+        k = self._pct_per_v
+        if not k or not values:
+            return []
+        step = abs(spacing * k)
+        decimals = min(6, max(0, -math.floor(math.log10(step) + 1e-9)))
+        return [f"{v * k:.{decimals}f}" for v in values]
+
+
+class PlotArea(pg.GraphicsLayoutWidget):
+    """Trace view above, residual strip below.
+
+    Signals
+    -------
+    band_moved(float, float)
+        The user released the band: new window start and end, seconds from
+        the shown cycle's ramp start.
+    """
+
+    band_moved = QtCore.Signal(float, float)
+
+    def __init__(self, parent: Any = None) -> None:
+        super().__init__(parent)
+        self.setBackground(theme.PLOT_BACKGROUND)
+        self.setMinimumSize(420, 320)
+        self._analysis: Any = None
+        self._shown = 0
+        self._all_fits = False
+        self._placing_band = False
+
+        self.trace_plot: pg.PlotItem = self.addPlot(row=0, col=0)
+        self.residual_plot: pg.PlotItem = self.addPlot(
+            row=1, col=0, axisItems={"right": PercentAxis("right")})
+        lay = self.ci.layout
+        lay.setRowStretchFactor(0, 3)
+        lay.setRowStretchFactor(1, 2)
+        lay.setVerticalSpacing(4)
+
+        self._style_plot(self.trace_plot, "Voltage", "V")
+        self._style_plot(self.residual_plot, "Residual", "V")
+        self.trace_plot.showAxis("right")
+        self.trace_plot.getAxis("right").setStyle(showValues=False)
+        self.residual_plot.showAxis("right")
+        self.percent_axis: PercentAxis = self.residual_plot.getAxis("right")  # type: ignore[assignment]
+        self.percent_axis.setLabel("% of span")
+        self.residual_plot.setLabel("bottom", "Time", units="s")
+        # The strip below carries the time labels; ticks here only line up with them.
+        self.trace_plot.getAxis("bottom").setStyle(showValues=False)
+        self.percent_axis.enableAutoSIPrefix(False)
+        self.residual_plot.setXLink(self.trace_plot)
+
+        vb = self.trace_plot.getViewBox()
+        vb.setAutoVisible(y=True)
+        self.residual_plot.getViewBox().setAutoVisible(y=True)
+
+        legend = self.trace_plot.addLegend(offset=(-10, 8), brush=pg.mkBrush(251, 248, 242, 215),
+                                           pen=_pen((200, 190, 170)), labelTextColor=theme.PLOT_FOREGROUND,
+                                           colCount=3)
+        legend.setZValue(50)
+        self.legend = legend
+
+        # Trace: pen width 1; downsampling and clipping are set after adding.
+        self.trace_curve = pg.PlotDataItem(pen=_pen(theme.TRACE, 1), name="capture")
+        self.trace_plot.addItem(self.trace_curve)
+        self.trace_curve.setDownsampling(auto=True, method="peak")
+        self.trace_curve.setClipToView(True)
+
+        self.cycle_fill = pg.LinearRegionItem(movable=False, brush=pg.mkBrush(*theme.SHOWN_CYCLE_FILL),
+                                              pen=pg.mkPen(None))
+        self.cycle_fill.setZValue(-20)
+        for line in self.cycle_fill.lines:
+            line.setPen(pg.mkPen(None))
+        self.trace_plot.addItem(self.cycle_fill, ignoreBounds=True)
+
+        self.band = pg.LinearRegionItem(
+            brush=pg.mkBrush(*theme.BAND_FILL), hoverBrush=pg.mkBrush(*theme.BAND_HOVER),
+            pen=_pen(theme.BAND_EDGE, 1.5), hoverPen=_pen(theme.BAND_EDGE, 3))
+        self.band.setZValue(-10)
+        self.band.setToolTip("Analysis window: drag it, or drag its edges, and release to measure again")
+        self.trace_plot.addItem(self.band, ignoreBounds=True)
+        self.band.sigRegionChangeFinished.connect(self._on_band_released)
+        self.band.sigRegionChanged.connect(self._mirror_band)
+
+        self.fit_others = pg.PlotDataItem(pen=_pen(theme.FIT_LINE_OTHER, 1), connect="finite")
+        self.trace_plot.addItem(self.fit_others)
+        self.fit_shown = pg.PlotDataItem(pen=_pen(theme.FIT_LINE, 2), name="fitted line")
+        self.trace_plot.addItem(self.fit_shown)
+        legend.addItem(_swatch(theme.BAND_FILL), "analysis window (drag)")
+
+        # Residual strip.
+        self.noise_band = pg.LinearRegionItem(orientation="horizontal", movable=False,
+                                              brush=pg.mkBrush(*theme.NOISE_BAND))
+        for line in self.noise_band.lines:
+            line.setPen(pg.mkPen(None))
+        self.noise_band.setZValue(-20)
+        self.residual_plot.addItem(self.noise_band, ignoreBounds=True)
+        self.band_copy = pg.LinearRegionItem(movable=False, brush=pg.mkBrush(*theme.BAND_FILL))
+        for line in self.band_copy.lines:
+            line.setPen(_pen(theme.BAND_EDGE, 1, QtCore.Qt.PenStyle.DashLine))
+        self.band_copy.setZValue(-15)
+        self.residual_plot.addItem(self.band_copy, ignoreBounds=True)
+        self.zero_line = pg.InfiniteLine(0.0, angle=0, pen=_pen(theme.ZERO_LINE, 1))
+        self.residual_plot.addItem(self.zero_line, ignoreBounds=True)
+        rlegend = self.residual_plot.addLegend(offset=(-10, 4), brush=pg.mkBrush(251, 248, 242, 215),
+                                               pen=_pen((200, 190, 170)),
+                                               labelTextColor=theme.PLOT_FOREGROUND, colCount=3)
+        rlegend.setZValue(50)
+        self.residual_legend = rlegend
+        self.residual_points = pg.PlotDataItem(
+            pen=None, symbol="o", symbolSize=3, symbolPen=None,
+            symbolBrush=pg.mkBrush(*theme.RESIDUAL_POINTS), name="averaged residual")
+        self.residual_plot.addItem(self.residual_points)
+        self.residual_smooth = pg.PlotDataItem(pen=_pen(theme.RESIDUAL_SMOOTH, 2),
+                                               name="systematic part", connect="finite")
+        self.residual_plot.addItem(self.residual_smooth)
+        rlegend.addItem(_swatch(theme.NOISE_BAND), "resolution floor")
+        self.reset()
+        _place_legend(self.legend, top=True)
+        _place_legend(self.residual_legend, top=True)
+
+    @staticmethod
+    def _style_plot(plot: pg.PlotItem, label: str, units: str) -> None:
+        plot.setLabel("left", label, units=units)
+        plot.showGrid(x=True, y=True, alpha=theme.GRID_ALPHA)
+        plot.setMenuEnabled(False)
+        for name in ("left", "bottom", "right"):
+            ax = plot.getAxis(name)
+            ax.setPen(_pen(theme.PLOT_FOREGROUND))
+            ax.setTextPen(_pen(theme.PLOT_FOREGROUND))
+        plot.getAxis("left").setWidth(_AXIS_WIDTH)
+        plot.getAxis("right").setWidth(_AXIS_WIDTH)
+
+    # -- content -------------------------------------------------------------------
+
+    def reset(self) -> None:
+        """Forget the capture and the analysis.
+
+        (Not named ``clear``: GraphicsLayoutWidget puts its layout's ``clear``,
+        which removes both plots, on every instance.)
+        """
+        self._analysis = None
+        self.trace_curve.setData([], [])
+        for item in (self.fit_shown, self.fit_others, self.residual_points, self.residual_smooth):
+            item.setData([], [])
+        for item in (self.band, self.band_copy, self.cycle_fill, self.noise_band):
+            item.hide()
+
+    def set_trace(self, trace: TraceData) -> None:
+        """Draw the capture (millions of points are fine: peak-downsampled and clipped)."""
+        self.trace_curve.setSkipFiniteCheck(trace.all_finite)
+        self.trace_curve.setData(trace.time_s, trace.voltage_v, connect="all" if trace.all_finite else "finite")
+
+    def set_analysis(self, analysis: Any, shown: int = 0, all_fits: bool | None = None) -> None:
+        """Draw the fit, the band and the residual of ``analysis`` at cycle ``shown``."""
+        self._analysis = analysis
+        if all_fits is not None:
+            self._all_fits = all_fits
+        self.percent_axis.set_span(float(analysis.figures.fitted_span_v))
+        # The band is the capture's resolution floor in volts, the same figure
+        # as the "smallest resolvable nonlinearity" of the figures panel.
+        floor = (float(analysis.noise.nonlinearity_floor_pct) / 100.0
+                 * float(analysis.figures.fitted_span_v))
+        if math.isfinite(floor) and floor > 0:
+            self.noise_band.setRegion((-floor, floor))
+            self.noise_band.show()
+        else:
+            self.noise_band.hide()
+        for item in (self.band, self.band_copy, self.cycle_fill):
+            item.show()
+        self._draw_other_fits()
+        self.show_cycle(shown)
+        # Keep the residual legend off the bow: below a hump, above a dip.
+        sm = np.asarray(analysis.averaged.smoothed_residual_v, dtype=float)
+        mid = sm[np.isfinite(sm)]
+        hump = mid.size > 0 and float(np.median(mid[mid.size // 3: 2 * mid.size // 3 + 1])) > 0
+        _place_legend(self.residual_legend, top=not hump)
+
+    @property
+    def shown(self) -> int:
+        return self._shown
+
+    @property
+    def n_cycles(self) -> int:
+        a = self._analysis
+        return 0 if a is None else len(a.segmentation.ramp_start_s)
+
+    def set_all_fits(self, on: bool) -> None:
+        """Draw the fitted line over every cycle (True) or only the shown one."""
+        self._all_fits = bool(on)
+        self._draw_other_fits()
+
+    def _sign(self) -> float:
+        return -1.0 if self._analysis.averaged.mirrored else 1.0
+
+    def _draw_other_fits(self) -> None:
+        a = self._analysis
+        if a is None or not self._all_fits:
+            self.fit_others.setData([], [])
+            return
+        av = a.averaged
+        starts = np.asarray(a.segmentation.ramp_start_s, dtype=float)
+        ends = np.array([av.window_start_s, av.window_end_s])
+        x = np.empty((starts.size, 3))
+        x[:, :2] = starts[:, None] + ends[None, :]
+        x[:, 2] = np.nan
+        y = np.empty_like(x)
+        y[:, :2] = self._sign() * av.fit.at(ends)[None, :]
+        y[:, 2] = np.nan
+        self.fit_others.setData(x.ravel(), y.ravel())
+
+    def cycle_span(self, i: int) -> tuple[float, float]:
+        """Start of cycle ``i``'s ramp and end of its retrace, absolute seconds."""
+        seg = self._analysis.segmentation
+        start = float(seg.ramp_start_s[i])
+        try:
+            end = float(seg.retrace_end_s[i])
+        except (IndexError, TypeError):
+            end = float(seg.ramp_end_s[i])
+        return start, end
+
+    def show_cycle(self, i: int) -> None:
+        """Move the fit, band and residual to cycle ``i`` (the view range is left alone)."""
+        a = self._analysis
+        if a is None or self.n_cycles == 0:
+            return
+        i = int(min(max(i, 0), self.n_cycles - 1))
+        self._shown = i
+        av = a.averaged
+        start, end = self.cycle_span(i)
+        ramp = float(av.ramp_time_s)
+        self.cycle_fill.setRegion((start, end))
+        self._place_band(start + av.window_start_s, start + av.window_end_s, start, start + ramp)
+        t = np.array([av.window_start_s, av.window_end_s])
+        self.fit_shown.setData(start + t, self._sign() * av.fit.at(t))
+        x = start + np.asarray(av.time_s, dtype=float)
+        self.residual_points.setData(x, np.asarray(av.residual_v, dtype=float))
+        self.residual_smooth.setData(x, np.asarray(av.smoothed_residual_v, dtype=float))
+
+    def _place_band(self, a: float, b: float, lo: float, hi: float) -> None:
+        self._placing_band = True
+        try:
+            self.band.setBounds((lo, hi))
+            self.band.setRegion((a, b))
+            self.band_copy.setRegion((a, b))
+        finally:
+            self._placing_band = False
+
+    def _mirror_band(self) -> None:
+        self.band_copy.setRegion(self.band.getRegion())
+
+    def _on_band_released(self) -> None:
+        if self._placing_band or self._analysis is None:
+            return
+        start, _ = self.cycle_span(self._shown)
+        ramp = float(self._analysis.averaged.ramp_time_s)
+        a, b = sorted(self.band.getRegion())
+        a, b = max(0.0, a - start), min(ramp, b - start)
+        if b - a < MIN_WINDOW_FRACTION * ramp:
+            # Too narrow to fit a line to: widen it about its centre.
+            mid = min(max((a + b) / 2, MIN_WINDOW_FRACTION * ramp / 2), ramp * (1 - MIN_WINDOW_FRACTION / 2))
+            a, b = mid - MIN_WINDOW_FRACTION * ramp / 2, mid + MIN_WINDOW_FRACTION * ramp / 2
+        self.band_moved.emit(float(a), float(b))
+
+    def band_region(self) -> tuple[float, float]:
+        """The band's current edges, absolute seconds."""
+        a, b = self.band.getRegion()
+        return float(a), float(b)
+
+    # -- view range ----------------------------------------------------------------
+
+    def zoom_to_cycle(self, i: int | None = None) -> None:
+        """Show cycle ``i`` (default: the shown one) with a little of its neighbours."""
+        if self._analysis is None or self.n_cycles == 0:
+            return
+        if i is not None:
+            self.show_cycle(i)
+        start, end = self.cycle_span(self._shown)
+        pad = 0.06 * (end - start)
+        self.trace_plot.setXRange(start - pad, end + pad, padding=0)
+        self._auto_y()
+
+    def zoom_to_all(self) -> None:
+        """Show the whole capture."""
+        self.trace_plot.enableAutoRange(x=True, y=True)
+        self.trace_plot.autoRange()
+        self._auto_y()
+
+    def _auto_y(self) -> None:
+        self.trace_plot.enableAutoRange(y=True)
+        self.residual_plot.enableAutoRange(y=True)
+
+    def x_range(self) -> tuple[float, float]:
+        lo, hi = self.trace_plot.getViewBox().viewRange()[0]
+        return float(lo), float(hi)
+
+
+def _swatch(rgba: tuple[int, int, int, int]) -> pg.PlotDataItem:
+    """A legend entry drawn as a filled square (for the bands, which have no line)."""
+    r, g, b, a = rgba
+    item = pg.PlotDataItem(pen=None, symbol="s", symbolSize=11,
+                           symbolBrush=pg.mkBrush(r, g, b, min(255, a * 3)), symbolPen=None)
+    return item
+
+
+def _place_legend(legend: pg.LegendItem, top: bool) -> None:
+    """Centre a one-row legend along the top or the bottom edge of its plot."""
+    y = 0.0 if top else 1.0
+    legend.anchor(itemPos=(0.5, y), parentPos=(0.5, y), offset=(0, 6 if top else -6))
