@@ -1,0 +1,153 @@
+"""Acceptance of the measurement engine against an independent circuit simulator.
+
+The issue's acceptance, verbatim: "the engine will be checked on captures of
+current-source ramps from an independent circuit simulator, in all the layouts
+above, with 8- to 12-bit quantisation and 1-3 mV noise, 10 or more cycles each:
+slope within 0.5%, frequency within 0.2%, start and end levels within 20 mV,
+nonlinearity within 0.15 percentage points plus 15% of the true value."
+
+Source of truth: ngspice (Debian package) transient runs of the netlists in
+``tests/fixtures/spice/netlists``; the true figures come from the noiseless
+simulator output by the separate numpy.polyfit computation in
+``tests/fixtures/spice/regenerate.py`` (never from trueslope).
+
+Coverage (the full grid of 15 cases x 8 layouts x 3 word lengths x noise is
+too slow for a shared machine, so):
+- every case in every layout once (120 files), the word length rotating
+  through 8, 10 and 12 bits so that each case meets each word length in two or
+  three layouts and each layout meets each word length about five times, the
+  noise drawn from 1 to 3 mV by a seeded generator;
+- every case at every word length with 1, 2 and 3 mV of noise in memory
+  (135 captures), without the file layer.
+"""
+
+from __future__ import annotations
+
+import importlib.util
+
+import numpy as np
+import pytest
+
+from spice_cases import LAYOUTS, FIXTURES, full_scale_for, list_cases, load_case, quantise, write_layout
+from trueslope.core.analysis import analyse
+from trueslope.core.capture import Capture
+from trueslope.core.settings import Settings
+
+BITS = (8, 10, 12)
+CASES = list_cases()
+LAYOUT_NAMES = list(LAYOUTS)
+
+# the issue's tolerances
+SLOPE_TOL = 0.005  # relative
+FREQ_TOL = 0.002  # relative
+LEVEL_TOL_V = 0.020
+NL_TOL_PP = 0.15
+NL_TOL_REL = 0.15
+
+
+def _file_grid() -> list[tuple[str, str, int, float, int]]:
+    rng = np.random.default_rng(20240611)
+    grid = []
+    for i, case in enumerate(CASES):
+        for j, layout in enumerate(LAYOUT_NAMES):
+            bits = BITS[(i + j) % len(BITS)]
+            noise = float(np.round(rng.uniform(1e-3, 3e-3), 5))
+            grid.append((case, layout, bits, noise, int(rng.integers(1 << 30))))
+    return grid
+
+
+FILE_GRID = _file_grid()
+MEMORY_GRID = [(c, b, n, 1000 * k + 7 * b + int(n * 1e3))
+               for k, c in enumerate(CASES) for b in BITS for n in (1e-3, 2e-3, 3e-3)]
+
+
+def shortfalls(figures, ref: dict, gain: float = 1.0, offset_v: float = 0.0) -> list[str]:
+    """Every figure outside the issue's tolerance, as readable lines (empty when all pass).
+
+    ``gain`` and ``offset_v`` map the importer's units back to volts, for a
+    layout (WAV) that holds no unit.
+    """
+    out = []
+    slope = gain * figures.slope_v_per_s
+    d = slope / ref["slope_v_per_s"] - 1
+    if not abs(d) <= SLOPE_TOL:
+        out.append(f"slope {slope:.6g} V/s vs {ref['slope_v_per_s']:.6g} ({100 * d:+.3f} %)")
+    d = figures.frequency_hz / ref["frequency_hz"] - 1
+    if not abs(d) <= FREQ_TOL:
+        out.append(f"frequency {figures.frequency_hz:.6g} Hz vs {ref['frequency_hz']:.6g} "
+                   f"({100 * d:+.4f} %)")
+    for key in ("start_v", "end_v"):
+        got = gain * getattr(figures, key) + offset_v
+        if not abs(got - ref[key]) <= LEVEL_TOL_V:
+            out.append(f"{key} {got:.4f} V vs {ref[key]:.4f} V ({1e3 * (got - ref[key]):+.1f} mV)")
+    true_nl = ref["nonlinearity_pct"]
+    tol = NL_TOL_PP + NL_TOL_REL * true_nl
+    if not abs(figures.nonlinearity_pct - true_nl) <= tol:
+        out.append(f"nonlinearity {figures.nonlinearity_pct:.4f} % vs {true_nl:.4f} % "
+                   f"(tolerance {tol:.3f} pp)")
+    return out
+
+
+def _degraded(case: str, bits: int, noise_v: float, seed: int):
+    t0, dt, v, truth = load_case(case)
+    return t0, dt, quantise(v, bits, full_scale_for(v), noise_v, seed), truth
+
+
+def test_every_case_has_ten_cycles_or_more():
+    # the issue asks for 10 or more cycles each; the reference counted them
+    assert len(CASES) >= 12
+    for case in CASES:
+        assert load_case(case)[3]["reference"]["full_cycles"] >= 10, case
+
+
+@pytest.mark.parametrize("case,layout,bits,noise_v,seed", FILE_GRID,
+                         ids=[f"{c}-{l}-{b}bit-{n * 1e3:.2f}mV" for c, l, b, n, _ in FILE_GRID])
+def test_engine_on_simulator_capture_files(tmp_path, case, layout, bits, noise_v, seed):
+    from trueslope.core.io import load_capture
+
+    t0, dt, v, truth = _degraded(case, bits, noise_v, seed)
+    path, kwargs = write_layout(layout, tmp_path, case, t0, dt, v)
+    gain, offset = kwargs.pop("_gain", 1.0), kwargs.pop("_offset_v", 0.0)
+    cap = load_capture(path, **kwargs)
+    assert cap.sample_interval_s == pytest.approx(dt, rel=1e-6)
+    a = analyse(cap, Settings())
+    assert a.figures.full_cycles >= 10
+    assert a.figures.direction == truth["direction"]
+    bad = shortfalls(a.figures, truth["reference"], gain, offset)
+    assert not bad, f"{case} as {layout}, {bits} bits, {noise_v * 1e3:.2f} mV: " + "; ".join(bad)
+
+
+@pytest.mark.parametrize("case,bits,noise_v,seed", MEMORY_GRID,
+                         ids=[f"{c}-{b}bit-{n * 1e3:.0f}mV" for c, b, n, _ in MEMORY_GRID])
+def test_engine_on_simulator_captures_in_memory(case, bits, noise_v, seed):
+    t0, dt, v, truth = _degraded(case, bits, noise_v, seed)
+    cap = Capture(source=f"{case}.npz", channels={"CH1": v}, sample_interval_s=dt, t0_s=t0)
+    a = analyse(cap, Settings())
+    bad = shortfalls(a.figures, truth["reference"])
+    assert not bad, f"{case}, {bits} bits, {noise_v * 1e3:.0f} mV: " + "; ".join(bad)
+
+
+def _naive_per_cycle_nonlinearity(t0, dt, v, direction) -> float:
+    """The cursor-and-maximum figure: per-cycle max |residual| of each cycle's own
+    line, averaged -- regenerate.py's reference computation run on the noisy capture."""
+    spec = importlib.util.spec_from_file_location("spice_regenerate", FIXTURES / "regenerate.py")
+    mod = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(mod)
+    return mod.reference_figures(t0, dt, v, direction)["nonlinearity_pct"]
+
+
+@pytest.mark.parametrize("case", ["straight", "straight_slow", "falling"])
+@pytest.mark.parametrize("noise_v", [1e-3, 2e-3, 3e-3])
+def test_straight_ramp_on_8_bits_is_reported_straight(case, noise_v):
+    # The reason the tool exists: on an 8-bit capture of a perfectly straight
+    # ramp, the maximum residual of each cycle against its own line is about
+    # half an ADC step plus noise peaks, several tenths of a percent of the
+    # span; trueslope must report the ramp straight to within its floor.
+    t0, dt, v, truth = _degraded(case, 8, noise_v, seed=int(noise_v * 1e4))
+    assert truth["reference"]["nonlinearity_pct"] < 1e-3  # the simulator's ramp is straight
+    naive = _naive_per_cycle_nonlinearity(t0, dt, v, truth["direction"])
+    assert naive > 0.2  # what a per-cycle maximum would have claimed
+    f = analyse(Capture(source=case, channels={"CH1": v}, sample_interval_s=dt, t0_s=t0)).figures
+    assert f.nonlinearity_pct < max(f.nonlinearity_floor_pct, 0.15), (naive, f.nonlinearity_pct)
+    assert f.nonlinearity_pct < naive / 3
+    assert f.below_floor is True

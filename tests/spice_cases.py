@@ -1,0 +1,169 @@
+"""The ngspice reference captures, and how to turn them into bench captures.
+
+The stored captures (``tests/fixtures/spice``, see its README) are noiseless
+simulator output. The acceptance tests degrade them as an oscilloscope
+would -- noise added ahead of an ADC of 8 to 12 bits -- and write them in
+every layout the importer reads, then compare trueslope's figures with the
+reference figures computed from the noiseless output by
+``tests/fixtures/spice/regenerate.py``.
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+from typing import Callable
+
+import numpy as np
+
+FIXTURES = Path(__file__).resolve().parent / "fixtures" / "spice"
+
+
+def list_cases() -> list[str]:
+    """Names of the stored cases, sorted."""
+    return sorted(p.stem for p in FIXTURES.glob("*.npz"))
+
+
+def load_case(name: str) -> tuple[float, float, np.ndarray, dict]:
+    """One stored case.
+
+    Returns
+    -------
+    t0_s : float
+        Time of the first sample, seconds.
+    dt_s : float
+        Sample interval, seconds.
+    v : ndarray of float64
+        Noiseless ramp voltage, volts.
+    truth : dict
+        The JSON sidecar: circuit values, expected signature, closed forms and
+        the ``reference`` figures.
+    """
+    with np.load(FIXTURES / f"{name}.npz") as z:
+        t0, dt, v = float(z["t0_s"]), float(z["dt_s"]), z["v"].astype(np.float64)
+    truth = json.loads((FIXTURES / f"{name}.json").read_text())
+    return t0, dt, v, truth
+
+
+def full_scale_for(v: np.ndarray, margin: float = 0.1) -> tuple[float, float]:
+    """An ADC range that holds the signal with ``margin`` of its span spare at each end
+    (as a scope set up with the trace filling most of the screen)."""
+    lo, hi = float(np.min(v)), float(np.max(v))
+    span = hi - lo
+    return lo - margin * span, hi + margin * span
+
+
+def quantise(v: np.ndarray, bits: int, full_scale_v: tuple[float, float],
+             noise_v: float = 0.0, seed: int = 0) -> np.ndarray:
+    """What an ADC records of ``v``: Gaussian noise added first, then rounded to the codes.
+
+    ``q = (hi - lo) / 2**bits``; code ``k = clip(round((v + n - lo) / q), 0, 2**bits - 1)``;
+    the value returned is ``lo + k q`` in volts (mid-tread quantiser, Widrow's model).
+    """
+    lo, hi = full_scale_v
+    rng = np.random.default_rng(seed)
+    x = np.asarray(v, dtype=float)
+    if noise_v:
+        x = x + rng.normal(0.0, noise_v, x.size)
+    q = (hi - lo) / 2 ** bits
+    codes = np.clip(np.round((x - lo) / q), 0, 2 ** bits - 1)
+    return lo + codes * q
+
+
+# ------------------------------------------------------------------ writers
+# Every writer takes (path, t0_s, dt_s, v) and returns the keyword arguments
+# the importer needs besides the path (only the layouts without any time
+# information need one: the sample interval).
+
+def _time(t0: float, dt: float, n: int) -> np.ndarray:
+    return t0 + dt * np.arange(n)
+
+
+def _text_columns(path: Path, cols: list[np.ndarray], fmts: list[str], sep: str,
+                  header: str, preamble: list[str] = (), decimal_comma: bool = False) -> None:
+    fmt = sep.join(fmts)
+    body = "\n".join(fmt % row for row in zip(*cols))
+    if decimal_comma:
+        body = body.replace(".", ",")
+    lines = list(preamble) + [header, body]
+    path.write_text("\n".join(lines) + "\n")
+
+
+def write_csv_units(path: Path, t0: float, dt: float, v: np.ndarray) -> dict:
+    """Comma separated, units in the header: ``time [s],CH1 [mV]`` (voltage in millivolts)."""
+    _text_columns(path, [_time(t0, dt, v.size), 1e3 * v], ["%.10e", "%.6f"], ",",
+                  "time [s],CH1 [mV]")
+    return {}
+
+
+def write_semicolon_comma(path: Path, t0: float, dt: float, v: np.ndarray) -> dict:
+    """Semicolon separated with a decimal comma (as written where the comma is the decimal mark)."""
+    _text_columns(path, [_time(t0, dt, v.size), v], ["%.10e", "%.7f"], ";",
+                  "time [s];CH1 [V]", decimal_comma=True)
+    return {}
+
+
+def write_tab(path: Path, t0: float, dt: float, v: np.ndarray) -> dict:
+    """Tab separated."""
+    _text_columns(path, [_time(t0, dt, v.size), v], ["%.10e", "%.7f"], "\t",
+                  "time [s]\tCH1 [V]")
+    return {}
+
+
+def write_spaces(path: Path, t0: float, dt: float, v: np.ndarray) -> dict:
+    """Columns separated by runs of spaces (fixed-width columns), no units in the header."""
+    _text_columns(path, [_time(t0, dt, v.size), v], ["%18.10e", "%14.7f"], "   ",
+                  f"{'time':>18s}   {'CH1':>14s}")
+    return {}
+
+
+def write_preamble(path: Path, t0: float, dt: float, v: np.ndarray) -> dict:
+    """A preamble of ``key: value`` lines, then a comma-separated table with units."""
+    pre = ["instrument: bench scope (simulated)", "channel: CH1", "coupling: DC",
+           f"record length: {v.size}", "probe: 1x", ""]
+    _text_columns(path, [_time(t0, dt, v.size), v], ["%.10e", "%.7f"], ",",
+                  "time [s],CH1 [V]", preamble=pre)
+    return {}
+
+
+def write_no_time(path: Path, t0: float, dt: float, v: np.ndarray) -> dict:
+    """Voltage column only; the sample interval given in the preamble."""
+    pre = ["channel: CH1", f"sample interval: {dt:.10e} s", ""]
+    path.write_text("\n".join(pre + ["CH1 [V]"] + [f"{x:.7f}" for x in v]) + "\n")
+    return {}
+
+
+def write_npy(path: Path, t0: float, dt: float, v: np.ndarray) -> dict:
+    """NumPy ``.npy`` of the voltage alone; the sample interval is passed to the importer."""
+    np.save(path, np.asarray(v, dtype=np.float64))
+    return {"sample_interval_s": dt}
+
+
+def write_wav(path: Path, t0: float, dt: float, v: np.ndarray) -> dict:
+    """16-bit PCM WAV, full scale = +-1 V (``scipy.io.wavfile``); rate = 1 / dt."""
+    from scipy.io import wavfile
+    rate = int(round(1.0 / dt))
+    codes = np.clip(np.round(np.asarray(v) * 32767.0), -32768, 32767).astype(np.int16)
+    wavfile.write(path, rate, codes)
+    return {}
+
+
+#: layout name -> (file suffix, writer)
+LAYOUTS: dict[str, tuple[str, Callable[..., dict]]] = {
+    "csv_units": (".csv", write_csv_units),
+    "semicolon_comma": (".csv", write_semicolon_comma),
+    "tab": (".tsv", write_tab),
+    "spaces": (".txt", write_spaces),
+    "preamble": (".csv", write_preamble),
+    "no_time": (".csv", write_no_time),
+    "npy": (".npy", write_npy),
+    "wav": (".wav", write_wav),
+}
+
+
+def write_layout(layout: str, folder: Path, stem: str, t0: float, dt: float,
+                 v: np.ndarray) -> tuple[Path, dict]:
+    """Write ``v`` in ``layout`` under ``folder``; return the path and importer keywords."""
+    suffix, writer = LAYOUTS[layout]
+    path = Path(folder) / f"{stem}{suffix}"
+    return path, writer(path, t0, dt, v)
