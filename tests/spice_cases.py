@@ -167,3 +167,53 @@ def write_layout(layout: str, folder: Path, stem: str, t0: float, dt: float,
     suffix, writer = LAYOUTS[layout]
     path = Path(folder) / f"{stem}{suffix}"
     return path, writer(path, t0, dt, v)
+
+
+# ------------------------------------------------------------------ report
+
+def _report(argv: list[str]) -> int:
+    """Print trueslope's figures against the truth, per case, for one quantisation.
+
+    ``python tests/spice_cases.py [bits] [noise_mV] [seed]``; bits 0 = noiseless.
+    """
+    from trueslope.core.analysis import analyse
+    from trueslope.core.capture import Capture
+    from trueslope.core.settings import Settings
+
+    bits = int(argv[0]) if argv else 8
+    noise_v = 1e-3 * float(argv[1]) if len(argv) > 1 else 2e-3
+    seed = int(argv[2]) if len(argv) > 2 else 1
+    try:
+        from trueslope.core.context import CircuitContext
+    except ImportError:
+        CircuitContext = None
+    print(f"{bits} bits, {noise_v * 1e3:g} mV noise, seed {seed}; d = trueslope - truth")
+    print(f"{'case':20s} {'d slope %':>9s} {'d freq %':>9s} {'d start mV':>10s} "
+          f"{'d end mV':>8s} {'NL %':>7s} {'true NL':>7s} {'tol pp':>6s} {'floor':>6s} "
+          f"{'signature (expected)':>44s} {'R/R_true':>8s}")
+    for name in list_cases():
+        t0, dt, v, truth = load_case(name)
+        ref = truth["reference"]
+        x = quantise(v, bits, full_scale_for(v), noise_v, seed) if bits else v
+        cap = Capture(source=name, channels={"CH1": x}, sample_interval_s=dt, t0_s=t0)
+        ctx = None
+        if CircuitContext is not None:
+            ctx = CircuitContext(capacitance_f=truth["capacitance_f"])
+        a = analyse(cap, Settings(context=ctx))
+        f = a.figures
+        sig = getattr(a.diagnosis, "signature", None)
+        r = getattr(a.diagnosis, "equivalent_shunt_ohm", None)
+        r_true = truth["equivalent_shunt_ohm"]
+        ratio = f"{r / r_true:8.3f}" if (r is not None and r_true) else f"{'-':>8s}"
+        print(f"{name:20s} {100 * (f.slope_v_per_s / ref['slope_v_per_s'] - 1):+9.3f} "
+              f"{100 * (f.frequency_hz / ref['frequency_hz'] - 1):+9.4f} "
+              f"{1e3 * (f.start_v - ref['start_v']):+10.1f} {1e3 * (f.end_v - ref['end_v']):+8.1f} "
+              f"{f.nonlinearity_pct:7.3f} {ref['nonlinearity_pct']:7.3f} "
+              f"{0.15 + 0.15 * ref['nonlinearity_pct']:6.3f} {f.nonlinearity_floor_pct:6.3f} "
+              f"{str(sig) + ' (' + truth['signature'] + ')':>44s} {ratio}")
+    return 0
+
+
+if __name__ == "__main__":
+    import sys
+    sys.exit(_report(sys.argv[1:]))

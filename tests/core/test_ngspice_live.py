@@ -1,0 +1,55 @@
+"""trueslope's slope on a ramp simulated live by ngspice, against the handbook I/C.
+
+Handbook formula: a constant current I into a capacitance C gives a ramp of
+slope dV/dt = I / C (i = C dv/dt). Here I = 100 uA and C = 10 nF, so 10 000 V/s.
+Skipped when ``ngspice`` (Debian package) is not on PATH.
+"""
+
+from __future__ import annotations
+
+import shutil
+import subprocess
+
+import numpy as np
+import pytest
+
+from trueslope.core.analysis import analyse
+from trueslope.core.capture import Capture
+from trueslope.core.settings import Settings
+
+I_A = 100e-6
+C_F = 10e-9
+
+# A current source charging a capacitor; a hysteretic voltage-controlled
+# switch (the comparator) resets it from 4 V to 0.05 V through 10 ohm.
+NETLIST = f"""* live check: constant-current ramp
+I1 0 ramp DC {I_A:g}
+C1 ramp 0 {C_F:g} IC=0
+S1 ramp 0 ramp 0 reset
+.model reset sw vt=2.025 vh=1.975 ron=10 roff=1e15
+.options reltol=1e-6 abstol=1e-15 vntol=1e-9 method=trap
+.tran 200n 5.6m 0.4m 20n uic
+.control
+run
+linearize v(ramp)
+option numdgt=12
+wrdata ramp.txt v(ramp)
+quit 0
+.endc
+.end
+"""
+
+
+@pytest.mark.skipif(shutil.which("ngspice") is None, reason="ngspice is not installed")
+def test_slope_of_a_live_ngspice_ramp_matches_i_over_c(tmp_path):
+    (tmp_path / "live.cir").write_text(NETLIST)
+    proc = subprocess.run(["ngspice", "-b", "live.cir"], cwd=tmp_path, capture_output=True,
+                          text=True, timeout=120)
+    assert proc.returncode == 0, proc.stdout + proc.stderr
+    data = np.loadtxt(tmp_path / "ramp.txt")
+    t, v = data[:, 0], data[:, 1]
+    dt = (t[-1] - t[0]) / (t.size - 1)
+    cap = Capture(source="live.cir", channels={"CH1": v}, sample_interval_s=dt, t0_s=t[0])
+    f = analyse(cap, Settings()).figures
+    assert f.full_cycles >= 10
+    assert f.slope_v_per_s == pytest.approx(I_A / C_F, rel=0.005)
