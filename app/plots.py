@@ -41,6 +41,32 @@ def _pen(colour: Any, width: float = 1.0, style: QtCore.Qt.PenStyle | None = Non
     return pen
 
 
+class TraceCurve(pg.PlotDataItem):
+    """The capture's curve, told that its samples are finite.
+
+    pyqtgraph 0.14 keeps "all finite" flags on its internal datasets but
+    never sets them from ``skipFiniteCheck``; with the flags unknown, every
+    redraw of the downsampling path runs ``x[np.isfinite(x)]`` over the whole
+    record (about 0.15 s per redraw at 10 M samples). The time axis is
+    computed, so always finite; the voltages are checked once, off the GUI
+    thread (:attr:`TraceData.all_finite`). Only the flags are touched, and
+    only where they exist, so a pyqtgraph without them is merely slower.
+    """
+
+    def __init__(self, *args: Any, **kwargs: Any) -> None:
+        super().__init__(*args, **kwargs)
+        self.y_all_finite = False
+
+    def _getDisplayDataset(self):  # noqa: N802 (pyqtgraph naming)
+        for name in ("_dataset", "_datasetMapped"):
+            ds = getattr(self, name, None)
+            if ds is not None and hasattr(ds, "xAllFinite"):
+                ds.xAllFinite = True
+                if self.y_all_finite:
+                    ds.yAllFinite = True
+        return super()._getDisplayDataset()
+
+
 class PercentAxis(pg.AxisItem):
     """An axis that labels a volts view in percent of a span.
 
@@ -128,7 +154,7 @@ class PlotArea(pg.GraphicsLayoutWidget):
         self.legend = legend
 
         # Trace: pen width 1; downsampling and clipping are set after adding.
-        self.trace_curve = pg.PlotDataItem(pen=_pen(theme.TRACE, 1), name="capture")
+        self.trace_curve = TraceCurve(pen=_pen(theme.TRACE, 1), name="capture")
         self.trace_plot.addItem(self.trace_curve)
         self.trace_curve.setDownsampling(auto=True, method="peak")
         self.trace_curve.setClipToView(True)
@@ -213,8 +239,17 @@ class PlotArea(pg.GraphicsLayoutWidget):
         for item in (self.band, self.band_copy, self.cycle_fill, self.noise_band):
             item.hide()
 
-    def set_trace(self, trace: TraceData) -> None:
-        """Draw the capture (millions of points are fine: peak-downsampled and clipped)."""
+    def set_trace(self, trace: TraceData, x_range: tuple[float, float] | None = None) -> None:
+        """Draw the capture (millions of points are fine: peak-downsampled and clipped).
+
+        Give ``x_range`` (seconds) when the view will show only part of the
+        record: set first, it lets clip-to-view slice the data before the
+        first downsampling pass, which otherwise runs over every sample at
+        the default view's resolution (a third of a second for 10 M samples).
+        """
+        if x_range is not None:
+            self.trace_plot.setXRange(*x_range, padding=0)
+        self.trace_curve.y_all_finite = trace.all_finite
         self.trace_curve.setSkipFiniteCheck(trace.all_finite)
         self.trace_curve.setData(trace.time_s, trace.voltage_v, connect="all" if trace.all_finite else "finite")
 
@@ -278,13 +313,7 @@ class PlotArea(pg.GraphicsLayoutWidget):
 
     def cycle_span(self, i: int) -> tuple[float, float]:
         """Start of cycle ``i``'s ramp and end of its retrace, absolute seconds."""
-        seg = self._analysis.segmentation
-        start = float(seg.ramp_start_s[i])
-        try:
-            end = float(seg.retrace_end_s[i])
-        except (IndexError, TypeError):
-            end = float(seg.ramp_end_s[i])
-        return start, end
+        return cycle_span(self._analysis, i)
 
     def show_cycle(self, i: int) -> None:
         """Move the fit, band and residual to cycle ``i`` (the view range is left alone)."""
@@ -342,9 +371,7 @@ class PlotArea(pg.GraphicsLayoutWidget):
             return
         if i is not None:
             self.show_cycle(i)
-        start, end = self.cycle_span(self._shown)
-        pad = 0.06 * (end - start)
-        self.trace_plot.setXRange(start - pad, end + pad, padding=0)
+        self.trace_plot.setXRange(*cycle_view(self._analysis, self._shown), padding=0)
         self._auto_y()
 
     def zoom_to_all(self) -> None:
@@ -374,3 +401,21 @@ def _place_legend(legend: pg.LegendItem, top: bool) -> None:
     """Centre a one-row legend along the top or the bottom edge of its plot."""
     y = 0.0 if top else 1.0
     legend.anchor(itemPos=(0.5, y), parentPos=(0.5, y), offset=(0, 6 if top else -6))
+
+
+def cycle_span(analysis: Any, i: int) -> tuple[float, float]:
+    """Start of cycle ``i``'s ramp and end of its retrace, absolute seconds."""
+    seg = analysis.segmentation
+    start = float(seg.ramp_start_s[i])
+    try:
+        end = float(seg.retrace_end_s[i])
+    except (IndexError, TypeError):
+        end = float(seg.ramp_end_s[i])
+    return start, end
+
+
+def cycle_view(analysis: Any, i: int) -> tuple[float, float]:
+    """Time range that shows cycle ``i`` with a little of its neighbours, seconds."""
+    start, end = cycle_span(analysis, i)
+    pad = 0.06 * (end - start)
+    return start - pad, end + pad

@@ -24,7 +24,7 @@ from trueslope.core.settings import MAX_TRIM_FRACTION, Settings
 from . import exporting, helptext, theme
 from .jobs import AnalyseRequest, JobResult, JobRunner, OpenRequest, run_analyse, run_open
 from .panels import CapturePanel, CycleTable, FiguresPanel, FindingsPanel
-from .plots import PlotArea
+from .plots import PlotArea, cycle_view
 from .store import Store
 
 CAPTURE_FILTER = ("Captures (*.csv *.txt *.tsv *.dat *.parquet *.npz *.npy);;"
@@ -573,10 +573,10 @@ class MainWindow(QtWidgets.QMainWindow):
         fresh = redraw_trace
         self.analysis = a
         self.stack.setCurrentWidget(self.plots)
+        shown = self.plots.shown if (old is not None and not fresh) else self._first_cycle(a)
         if redraw_trace and result.trace is not None:
             self.trace = result.trace
-            self.plots.set_trace(result.trace)
-        shown = self.plots.shown if (old is not None and not fresh) else self._first_cycle(a)
+            self.plots.set_trace(result.trace, cycle_view(a, shown) if len(a.cycles) else None)
         self.plots.set_analysis(a, shown, all_fits=self.act_all_fits.isChecked())
         self.figures.set_analysis(a)
         self.cycles.set_cycles(a.cycles)
