@@ -367,15 +367,25 @@ def end_levels(av: AveragedCycle) -> tuple[float, float]:
     return out[0], out[1]
 
 
-def robust_outliers(*series: np.ndarray) -> np.ndarray:
-    """Mark entries lying more than ``OUTLIER_Z`` robust standard deviations from the median."""
-    flag = np.zeros(series[0].size, dtype=bool)
-    if series[0].size < 5:
+def robust_outliers(series: list[tuple[np.ndarray, float, float]]) -> np.ndarray:
+    """Mark cycles lying more than ``OUTLIER_Z`` robust standard deviations from the median.
+
+    Parameters
+    ----------
+    series : list of (values, relative_floor, absolute_floor)
+        Each figure with the smallest spread worth calling a difference: the
+        robust scale (1.4826 x MAD) is raised to ``relative_floor x |median|``
+        and ``absolute_floor``, so that near-identical cycles of a clean
+        capture are not marked for differences nobody would act on.
+    """
+    n = series[0][0].size
+    flag = np.zeros(n, dtype=bool)
+    if n < 5:
         return flag
-    for s in series:
+    for s, rel, absf in series:
         med = np.median(s)
         mad = 1.4826 * np.median(np.abs(s - med))
-        scale = max(mad, 1e-3 * abs(med), 1e-300)
+        scale = max(mad, rel * abs(med), absf, 1e-300)
         flag |= np.abs(s - med) > OUTLIER_Z * scale
     return flag
 
@@ -399,7 +409,9 @@ def build_cycles(cyc: _CycleArrays, seg: Segmentation, sign: float) -> tuple[Cyc
     tq = stats.t.ppf(0.975, np.maximum(cyc.dof, 1))
     nl = 100.0 * cyc.peak / np.abs(cyc.span)
     tnl = 100.0 * cyc.terminal_peak / np.abs(cyc.terminal_span)
-    out_flag = robust_outliers(cyc.slope, cyc.ramp_time_s, nl)
+    # floors: 0.2 % of slope or ramp time, 0.05 percentage points (+10 %) of nonlinearity
+    out_flag = robust_outliers([(cyc.slope, 2e-3, 0.0), (cyc.ramp_time_s, 2e-3, 0.0),
+                                (nl, 0.1, 0.05)])
     recs = []
     for i in range(cyc.slope.size):
         b = sign * cyc.slope[i]
