@@ -292,15 +292,21 @@ class CycleTable(QtWidgets.QTableView):
 
 #: The context form's fields: (keyword of parse_context, label, placeholder, help).
 CONTEXT_FIELDS: tuple[tuple[str, str, str, str], ...] = (
-    ("capacitance", "Timing capacitor", "e.g. 47n", "The capacitor the current charges, farads (47n = 47 nF)"),
-    ("current", "Charging current", "e.g. 100u", "The constant current into the capacitor, amperes; "
+    ("capacitance", "Capacitor", "e.g. 47n", "The capacitor the current charges, farads (47n = 47 nF)"),
+    ("current", "Current", "e.g. 100u", "The constant current into the capacitor, amperes; "
      "or give the set resistor and reference below instead"),
-    ("set_resistor", "Current-set resistor", "e.g. 10k", "Resistor that sets the current source, ohms"),
-    ("reference", "Reference voltage", "e.g. 1.0", "Voltage across the set resistor, volts"),
-    ("probe", "Probe / scope input", "e.g. 10M,12p", "Resistance and capacitance the probe adds, "
+    ("set_resistor", "Set resistor", "e.g. 10k", "Resistor that sets the current source, ohms"),
+    ("reference", "Reference", "e.g. 1.0", "Voltage across the set resistor, volts"),
+    ("probe", "Probe", "e.g. 10M,12p", "Resistance and capacitance the probe adds, "
      "as R,C (10M,12p = 10 MΩ with 12 pF)"),
-    ("tolerance", "Part tolerance", "e.g. 10%", "Tolerance of the parts, for the self-check's verdicts"),
+    ("tolerance", "Tolerance", "e.g. 10%", "Tolerance of the parts, for the self-check's verdicts"),
 )
+
+
+_CURVATURE_WORDS = {
+    "concave": "concave: the slope falls along the ramp",
+    "convex": "convex: the slope rises along the ramp",
+}
 
 
 def _pretty(word: Any) -> str:
@@ -323,23 +329,33 @@ class ContextForm(QtWidgets.QGroupBox):
     DEBOUNCE_MS = 400
 
     def __init__(self, parent: QtWidgets.QWidget | None = None) -> None:
-        super().__init__("Circuit context", parent)
-        form = QtWidgets.QFormLayout(self)
-        form.setFieldGrowthPolicy(QtWidgets.QFormLayout.FieldGrowthPolicy.AllNonFixedFieldsGrow)
+        super().__init__("Circuit context (what you know of the circuit)", parent)
+        # Two pairs of label and field a row keeps the form short enough to
+        # sit beside the self-check it feeds.
+        grid = QtWidgets.QGridLayout(self)
+        grid.setHorizontalSpacing(8)
+        grid.setVerticalSpacing(4)
         self.edits: dict[str, QtWidgets.QLineEdit] = {}
-        for key, label, placeholder, tip in CONTEXT_FIELDS:
+        for i, (key, label, placeholder, tip) in enumerate(CONTEXT_FIELDS):
             edit = QtWidgets.QLineEdit()
             edit.setPlaceholderText(placeholder)
             edit.setToolTip(tip)
             edit.setClearButtonEnabled(True)
             edit.textEdited.connect(self._schedule)
-            form.addRow(label, edit)
+            name = QtWidgets.QLabel(label)
+            name.setToolTip(tip)
+            name.setBuddy(edit)
+            row, col = divmod(i, 2)
+            grid.addWidget(name, row, 2 * col)
+            grid.addWidget(edit, row, 2 * col + 1)
             self.edits[key] = edit
+        grid.setColumnStretch(1, 1)
+        grid.setColumnStretch(3, 1)
         self.error = QtWidgets.QLabel("")
         self.error.setObjectName("formError")
         self.error.setWordWrap(True)
         self.error.hide()
-        form.addRow(self.error)
+        grid.addWidget(self.error, grid.rowCount(), 0, 1, 4)
         self._timer = QtCore.QTimer(self)
         self._timer.setSingleShot(True)
         self._timer.setInterval(self.DEBOUNCE_MS)
@@ -407,8 +423,8 @@ class FindingsPanel(QtWidgets.QScrollArea):
 
         check = QtWidgets.QGroupBox("Self-check against the circuit")
         cl = QtWidgets.QVBoxLayout(check)
-        self.check_summary = QtWidgets.QLabel("Enter what you know of the circuit below to "
-                                              "compare it with the measurement.")
+        self.check_summary = QtWidgets.QLabel("Fill in the circuit context above to compare "
+                                              "the circuit with the measurement.")
         self.check_summary.setWordWrap(True)
         self.check_table = QtWidgets.QTableWidget(0, 5)
         self.check_table.setHorizontalHeaderLabels(["Check", "Expected", "Measured", "Off by", "Verdict"])
@@ -424,10 +440,9 @@ class FindingsPanel(QtWidgets.QScrollArea):
         cl.addWidget(self.check_summary)
         cl.addWidget(self.check_table)
         cl.addWidget(self.probe_line)
-        lay.addWidget(check)
-
         self.form = ContextForm()
         lay.addWidget(self.form)
+        lay.addWidget(check)
         lay.addStretch(1)
         self.setWidget(body)
 
@@ -447,12 +462,18 @@ class FindingsPanel(QtWidgets.QScrollArea):
         else:
             self.signature.setText(_pretty(getattr(d, "signature", "")))
             bits = [str(getattr(d, "strength_words", "") or "")]
+            curv = str(getattr(d, "curvature", "") or "")
+            if curv in _CURVATURE_WORDS:
+                bits.append(_CURVATURE_WORDS[curv])
             tau = getattr(d, "tau_s", None)
             if tau is not None and fmt.si(tau, "s") != fmt.MISSING:
                 bits.append(f"time constant {fmt.si(tau, 's', 3)}")
             shunt = getattr(d, "equivalent_shunt_ohm", None)
             if shunt is not None and fmt.si(shunt, "Ω") != fmt.MISSING:
                 bits.append(f"like a {fmt.si(shunt, 'Ω', 3)} shunt")
+            beta = getattr(d, "voltage_coefficient_per_v", None)
+            if beta is not None and fmt.plain(beta) != fmt.MISSING:
+                bits.append(f"slope changes {fmt.pct(100.0 * beta)} per volt")
             self.strength.setText(" · ".join(b for b in bits if b))
             self.explanation.setText(str(getattr(d, "explanation", "") or ""))
             checks = [str(c) for c in (getattr(d, "next_checks", ()) or ())]
@@ -465,8 +486,8 @@ class FindingsPanel(QtWidgets.QScrollArea):
 
     def _set_check(self, cc: Any) -> None:
         if cc is None:
-            self.check_summary.setText("Enter what you know of the circuit below to compare it "
-                                       "with the measurement.")
+            self.check_summary.setText("Fill in the circuit context above to compare the "
+                                       "circuit with the measurement.")
             self.check_table.setRowCount(0)
             self.check_table.hide()
             self.probe_line.hide()
