@@ -145,16 +145,19 @@ class PlotArea(pg.GraphicsLayoutWidget):
 
         vb = self.trace_plot.getViewBox()
         vb.setAutoVisible(y=True)
-        self.residual_plot.getViewBox().setAutoVisible(y=True)
 
-        legend = self.trace_plot.addLegend(offset=(-10, 8), brush=pg.mkBrush(251, 248, 242, 215),
-                                           pen=_pen((200, 190, 170)), labelTextColor=theme.PLOT_FOREGROUND,
-                                           colCount=3)
-        legend.setZValue(50)
-        self.legend = legend
+        # Keys sit in the plots' title rows, where they can never hide data.
+        self.trace_plot.setTitle(_key([("line", theme.TRACE, "capture"),
+                                       ("line", theme.FIT_LINE, "fitted line"),
+                                       ("box", theme.BAND_FILL, "analysis window (drag it)")]),
+                                 size="9pt")
+        self.residual_plot.setTitle(_key([("dot", theme.RESIDUAL_POINTS, "averaged cycle's residual"),
+                                          ("line", theme.RESIDUAL_SMOOTH, "systematic part"),
+                                          ("box", theme.NOISE_BAND, "resolution floor")]),
+                                    size="9pt")
 
         # Trace: pen width 1; downsampling and clipping are set after adding.
-        self.trace_curve = TraceCurve(pen=_pen(theme.TRACE, 1), name="capture")
+        self.trace_curve = TraceCurve(pen=_pen(theme.TRACE, 1))
         self.trace_plot.addItem(self.trace_curve)
         self.trace_curve.setDownsampling(auto=True, method="peak")
         self.trace_curve.setClipToView(True)
@@ -177,9 +180,8 @@ class PlotArea(pg.GraphicsLayoutWidget):
 
         self.fit_others = pg.PlotDataItem(pen=_pen(theme.FIT_LINE_OTHER, 1), connect="finite")
         self.trace_plot.addItem(self.fit_others)
-        self.fit_shown = pg.PlotDataItem(pen=_pen(theme.FIT_LINE, 2), name="fitted line")
+        self.fit_shown = pg.PlotDataItem(pen=_pen(theme.FIT_LINE, 2))
         self.trace_plot.addItem(self.fit_shown)
-        legend.addItem(_swatch(theme.BAND_FILL), "analysis window (drag)")
 
         # Residual strip.
         self.noise_band = pg.LinearRegionItem(orientation="horizontal", movable=False,
@@ -195,22 +197,13 @@ class PlotArea(pg.GraphicsLayoutWidget):
         self.residual_plot.addItem(self.band_copy, ignoreBounds=True)
         self.zero_line = pg.InfiniteLine(0.0, angle=0, pen=_pen(theme.ZERO_LINE, 1))
         self.residual_plot.addItem(self.zero_line, ignoreBounds=True)
-        rlegend = self.residual_plot.addLegend(offset=(-10, 4), brush=pg.mkBrush(251, 248, 242, 215),
-                                               pen=_pen((200, 190, 170)),
-                                               labelTextColor=theme.PLOT_FOREGROUND, colCount=3)
-        rlegend.setZValue(50)
-        self.residual_legend = rlegend
         self.residual_points = pg.PlotDataItem(
             pen=None, symbol="o", symbolSize=3, symbolPen=None,
-            symbolBrush=pg.mkBrush(*theme.RESIDUAL_POINTS), name="averaged residual")
+            symbolBrush=pg.mkBrush(*theme.RESIDUAL_POINTS))
         self.residual_plot.addItem(self.residual_points)
-        self.residual_smooth = pg.PlotDataItem(pen=_pen(theme.RESIDUAL_SMOOTH, 2),
-                                               name="systematic part", connect="finite")
+        self.residual_smooth = pg.PlotDataItem(pen=_pen(theme.RESIDUAL_SMOOTH, 2), connect="finite")
         self.residual_plot.addItem(self.residual_smooth)
-        rlegend.addItem(_swatch(theme.NOISE_BAND), "resolution floor")
         self.reset()
-        _place_legend(self.legend, top=True)
-        _place_legend(self.residual_legend, top=True)
 
     @staticmethod
     def _style_plot(plot: pg.PlotItem, label: str, units: str) -> None:
@@ -272,11 +265,7 @@ class PlotArea(pg.GraphicsLayoutWidget):
             item.show()
         self._draw_other_fits()
         self.show_cycle(shown)
-        # Keep the residual legend off the bow: below a hump, above a dip.
-        sm = np.asarray(analysis.averaged.smoothed_residual_v, dtype=float)
-        mid = sm[np.isfinite(sm)]
-        hump = mid.size > 0 and float(np.median(mid[mid.size // 3: 2 * mid.size // 3 + 1])) > 0
-        _place_legend(self.residual_legend, top=not hump)
+        self.fit_residual_y()
 
     @property
     def shown(self) -> int:
@@ -382,25 +371,52 @@ class PlotArea(pg.GraphicsLayoutWidget):
 
     def _auto_y(self) -> None:
         self.trace_plot.enableAutoRange(y=True)
-        self.residual_plot.enableAutoRange(y=True)
+        self.fit_residual_y()
+
+    def fit_residual_y(self) -> None:
+        """Scale the residual strip to the residual inside the window (and the floor).
+
+        Not auto-ranged: the bins next to the reset, outside the window, can
+        lie hundreds of times further off and would flatten the bow.
+        """
+        a = self._analysis
+        if a is None:
+            return
+        av = a.averaged
+        r = np.asarray(av.residual_v, dtype=float)
+        inside = r[np.asarray(av.in_window, dtype=bool) & np.isfinite(r)]
+        sm = np.asarray(av.smoothed_residual_v, dtype=float)
+        sm = sm[np.isfinite(sm)]
+        floor = float(a.noise.nonlinearity_floor_pct) / 100.0 * float(a.figures.fitted_span_v)
+        m = max(float(np.max(np.abs(inside))) if inside.size else 0.0,
+                float(np.max(np.abs(sm))) if sm.size else 0.0,
+                floor if math.isfinite(floor) else 0.0)
+        if m > 0 and math.isfinite(m):
+            self.residual_plot.setYRange(-1.15 * m, 1.15 * m, padding=0)
+        else:
+            self.residual_plot.enableAutoRange(y=True)
 
     def x_range(self) -> tuple[float, float]:
         lo, hi = self.trace_plot.getViewBox().viewRange()[0]
         return float(lo), float(hi)
 
 
-def _swatch(rgba: tuple[int, int, int, int]) -> pg.PlotDataItem:
-    """A legend entry drawn as a filled square (for the bands, which have no line)."""
-    r, g, b, a = rgba
-    item = pg.PlotDataItem(pen=None, symbol="s", symbolSize=11,
-                           symbolBrush=pg.mkBrush(r, g, b, min(255, a * 3)), symbolPen=None)
-    return item
+def _css(colour: Any) -> str:
+    if isinstance(colour, tuple):
+        r, g, b = colour[:3]
+        a = colour[3] if len(colour) > 3 else 255
+        # Keys are drawn on the plain background: give faint fills more body.
+        return f"rgba({r},{g},{b},{min(1.0, 3 * a / 255):.2f})"
+    return str(colour)
 
 
-def _place_legend(legend: pg.LegendItem, top: bool) -> None:
-    """Centre a one-row legend along the top or the bottom edge of its plot."""
-    y = 0.0 if top else 1.0
-    legend.anchor(itemPos=(0.5, y), parentPos=(0.5, y), offset=(0, 6 if top else -6))
+def _key(entries: list[tuple[str, Any, str]]) -> str:
+    """HTML for a one-line key: a coloured mark, then its words, for each entry."""
+    marks = {"line": "&#9472;&#9472;", "dot": "&#9679;", "box": "&#9632;"}
+    parts = [f"<span style='color:{_css(c)}; font-weight:bold'>{marks[k]}</span>"
+             f"<span style='color:{theme.PLOT_FOREGROUND}'>&nbsp;{text}</span>"
+             for k, c, text in entries]
+    return "&nbsp;&nbsp;&nbsp;&nbsp;".join(parts)
 
 
 def cycle_span(analysis: Any, i: int) -> tuple[float, float]:

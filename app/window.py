@@ -611,7 +611,9 @@ class MainWindow(QtWidgets.QMainWindow):
             self._pending_path = getattr(req, "path", None) or self._pending_path
             n = len(result.capture.channel_names)
             keep = " The capture already open stays open." if self.capture is not None else ""
-            text = f"{name} was read but could not be measured: {msg}.{keep}"
+            if msg.startswith(name + ":"):
+                msg = msg[len(name) + 1:].strip()
+            text = f"{name} was read but could not be measured: {msg.rstrip('.')}.{keep}"
             if n > 1:
                 self._show_error(text, "Choose channel…", self._choose_channel_for_pending)
             else:
@@ -628,7 +630,10 @@ class MainWindow(QtWidgets.QMainWindow):
         msg = describe_error(exc)
         if isinstance(req, OpenRequest):
             keep = " The capture already open stays open." if self.capture is not None else ""
-            self._show_error(f"Could not open {Path(req.path).name}: {msg}.{keep}")
+            name = Path(req.path).name
+            # Our errors already start with the file's name.
+            what = msg if msg.startswith(name) else f"{name}: {msg}"
+            self._show_error(f"Could not open {what.rstrip('.')}.{keep}")
         else:
             self._show_error(f"Could not measure again: {msg}. The previous result is still shown.")
             if self.analysis is not None:
