@@ -66,6 +66,7 @@ def plain(value: Any) -> str:
 
 def quantity(value: Any, unit: str) -> str:
     """A value in its unit: ``%`` and empty units are not SI-prefixed."""
+    unit = {"ohm": "Ω", "ohms": "Ω"}.get(unit, unit)
     if unit in ("%", "pct"):
         return pct(value)
     if not unit:

@@ -226,7 +226,7 @@ class CycleModel(QtCore.QAbstractTableModel):
         if role == QtCore.Qt.ItemDataRole.BackgroundRole and c.outlier:
             return QtGui.QBrush(QtGui.QColor(theme.OUTLIER_BACKGROUND))
         if role == QtCore.Qt.ItemDataRole.ForegroundRole and c.outlier and col[1] == "outlier":
-            return QtGui.QBrush(QtGui.QColor(theme.VERDICT_COLOURS["fail"]))
+            return QtGui.QBrush(QtGui.QColor(theme.VERDICT_COLOURS["outside"]))
         if role == QtCore.Qt.ItemDataRole.TextAlignmentRole and index.column() > 0:
             return int(QtCore.Qt.AlignmentFlag.AlignRight | QtCore.Qt.AlignmentFlag.AlignVCenter)
         if role == QtCore.Qt.ItemDataRole.ToolTipRole:
@@ -429,6 +429,7 @@ class FindingsPanel(QtWidgets.QScrollArea):
         self.check_table = QtWidgets.QTableWidget(0, 5)
         self.check_table.setHorizontalHeaderLabels(["Check", "Expected", "Measured", "Off by", "Verdict"])
         self.check_table.verticalHeader().setVisible(False)
+        self.check_table.verticalHeader().setDefaultSectionSize(22)
         self.check_table.setEditTriggers(QtWidgets.QAbstractItemView.EditTrigger.NoEditTriggers)
         self.check_table.setSelectionMode(QtWidgets.QAbstractItemView.SelectionMode.NoSelection)
         self.check_table.horizontalHeader().setStretchLastSection(True)
@@ -436,6 +437,7 @@ class FindingsPanel(QtWidgets.QScrollArea):
         self.check_table.hide()
         self.probe_line = QtWidgets.QLabel("")
         self.probe_line.setWordWrap(True)
+        self.probe_line.setTextFormat(QtCore.Qt.TextFormat.RichText)
         self.probe_line.hide()
         cl.addWidget(self.check_summary)
         cl.addWidget(self.check_table)
@@ -521,17 +523,23 @@ class FindingsPanel(QtWidgets.QScrollArea):
         for r in range(len(items)):
             h += self.check_table.rowHeight(r)
         self.check_table.setFixedHeight(h + 2)
-        probe = getattr(cc, "probe_match", None)
+        lines = []
+        for it in items:
+            cause = str(getattr(it, "likely_cause", "") or "")
+            if cause and getattr(it, "verdict", "") == "outside":
+                lines.append(f"<li><b>{html.escape(_pretty(it.name))}</b>: {html.escape(cause)}</li>")
+        match = str(getattr(cc, "probe_match", "") or "")
+        if match:
+            lines.append(f"<li>The equivalent shunt looks like: {html.escape(match)}.</li>")
         pred = getattr(cc, "probe_predicted_nonlinearity_pct", None)
-        if probe is not None or pred is not None:
-            text = []
-            if probe is not None:
-                text.append(str(probe) if not isinstance(probe, bool) else
-                            ("The probe's loading explains the bow." if probe else
-                             "The probe's loading does not explain the bow."))
-            if pred is not None and fmt.pct(pred) != fmt.MISSING:
-                text.append(f"Loading by the probe alone would give {fmt.pct(pred)} nonlinearity.")
-            self.probe_line.setText(" ".join(text))
+        if pred is not None and fmt.pct(pred) != fmt.MISSING:
+            explains = getattr(cc, "probe_explains_bow", None)
+            tail = {True: " That explains the bow measured.",
+                    False: ""}.get(explains, "")
+            lines.append(f"<li>The stated probe alone would bend the ramp by {fmt.pct(pred)}."
+                         f"{tail}</li>")
+        if lines:
+            self.probe_line.setText(f"<ul style='margin-left:-20px'>{''.join(lines)}</ul>")
             self.probe_line.show()
         else:
             self.probe_line.hide()

@@ -35,15 +35,9 @@ ZERO_LINE = (58, 63, 71, 120)
 
 #: Verdict colours of the self-check (text on a light chip).
 VERDICT_COLOURS = {
-    "ok": "#2f6b3a",
-    "pass": "#2f6b3a",
-    "agrees": "#2f6b3a",
-    "warn": "#8a5a00",
-    "marginal": "#8a5a00",
-    "check": "#8a5a00",
-    "fail": "#9b2c22",
-    "disagrees": "#9b2c22",
-    "mismatch": "#9b2c22",
+    "within tolerance": "#2f6b3a",
+    "outside": "#9b2c22",
+    "not checked": "#6a6f78",
 }
 VERDICT_DEFAULT = "#4a4f57"
 

@@ -397,9 +397,9 @@ class MainWindow(QtWidgets.QMainWindow):
             if state is not None:
                 split.restoreState(state)
         if self.store.geometry("split_main") is None:
-            self.main_split.setSizes([1000, 470])
-            self.left.setSizes([640, 170])
-            self.right.setSizes([430, 420])
+            self.main_split.setSizes([930, 640])
+            self.left.setSizes([660, 170])
+            self.right.setSizes([360, 500])
         self.welcome.refresh(self.store.recent_files)
 
     def _show_welcome(self) -> None:
