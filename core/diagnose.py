@@ -54,10 +54,11 @@ from typing import Any, Callable
 
 import numpy as np
 from numpy.polynomial import legendre
-from scipy import optimize, signal
+from scipy import ndimage, optimize, signal
 
 from .linearity import SMOOTH_ORDER, smoothing_window
 from .results import AveragedCycle, Figures, NoiseFloor, _plain
+from .units import format_si
 
 #: A curved model must lower the BIC by more than this to beat the line. On the
 #: scale of Kass and Raftery ("Bayes factors", J. Amer. Statist. Assoc. 90, 1995;
@@ -75,6 +76,8 @@ MAX_POLY_DEGREE = 10
 #: Resolution is never taken finer than this (percent of the span), so that
 #: noise-free simulated data is not judged against a floor of zero.
 MIN_FLOOR_PCT = 1e-4
+#: Bins over which the noise of one sample is averaged (at least; or 1/20 of the window).
+NOISE_SMOOTH_BINS = 25
 #: Strength boundaries: below 1 the shape is not above the noise.
 STRENGTH_CLEAR = 3.0
 STRENGTH_STRONG = 10.0
@@ -381,14 +384,8 @@ def strength_words(strength: float) -> str:
 
 
 def _si(value: float, unit: str) -> str:
-    """Engineering notation for the explanation text (e.g. 4.7 Mohm, 120 us)."""
-    if value is None or not math.isfinite(value) or value == 0:
-        return f"{value} {unit}"
-    prefixes = {-15: "f", -12: "p", -9: "n", -6: "u", -3: "m", 0: "", 3: "k", 6: "M", 9: "G",
-                12: "T"}
-    e = int(math.floor(math.log10(abs(value)) / 3) * 3)
-    e = max(-15, min(12, e))
-    return f"{value / 10 ** e:.3g} {prefixes[e]}{unit}"
+    """Engineering notation for the explanation text (e.g. 4.70 MΩ, 120 µs)."""
+    return format_si(value, unit, 3)
 
 
 def _where(frac: float) -> str:
@@ -551,6 +548,14 @@ def diagnose(averaged: AveragedCycle, figures: Figures, noise: NoiseFloor,
     good = np.isfinite(se) & (se > 0)
     fill = float(np.median(se[good])) if np.any(good) else floor_v
     se = np.where(good, se, fill)
+    # Each bin's spread comes from few cycles, so its variance is itself noisy and
+    # a bin that happens to look quiet would dominate the fit. The noise of one
+    # sample varies slowly along a ramp: average it over neighbouring bins.
+    cnt = np.asarray(averaged.count, dtype=float)[inw][ok]
+    cnt = np.where(np.isfinite(cnt) & (cnt > 0), cnt, 1.0)
+    per_sample = se * se * cnt
+    k = int(min(max(NOISE_SMOOTH_BINS, se.size // 20), se.size))
+    se = np.sqrt(ndimage.uniform_filter1d(per_sample, k, mode="nearest") / cnt)
     # a simulated, noise-free capture would give standard errors of zero
     se = np.maximum(se, 1e-8 * span)
     x = t / T
@@ -564,20 +569,34 @@ def diagnose(averaged: AveragedCycle, figures: Figures, noise: NoiseFloor,
         return _not_measurable(t.size, f"the model fits failed ({exc})")
     scores = {name: m.bic for name, m in fits.items()}
     line = fits["line"]
-    curved = {k: m for k, m in fits.items() if k != "line"}
-    best_curved = min(curved.values(), key=lambda m: m.bic) if curved else None
-    evidence = line.bic - best_curved.bic if best_curved is not None else 0.0
-    # strength: how far the best curved model bends from the line, over the floor
+    poly = fits.get("polynomial")
+    curved = [m for k, m in fits.items() if k != "line"]
+    best_curved = min(curved, key=lambda m: m.bic)
+    evidence = line.bic - best_curved.bic
     physical = [fits[k] for k in ("shunt-loading", "voltage-coefficient",
                                   "dielectric-absorption") if k in fits]
+    shapes = physical + ([fits["relaxation-low"]] if "relaxation-low" in fits else [])
+    # The systematic shape is the catch-all's curve (its degree chosen by BIC, so it
+    # follows the data as closely as the noise allows); a model explains the shape
+    # when the data hardly prefer the catch-all to it, or when what it leaves of the
+    # shape is below the resolution floor or a small fraction of the bow.
+    shape = poly.curve if poly is not None else y
+    bow_v = _bend(poly, line) if poly is not None else _smooth_peak(y - line.curve)[0]
+    left = {m.name: float(np.max(np.abs(shape - m.curve))) for m in shapes}
+    tol = max(floor_v, ADEQUATE_FRACTION * bow_v)
+    adequate = [m for m in shapes
+                if m.bic - best_curved.bic <= BIC_MARGIN or left[m.name] <= tol]
+    win = min(adequate, key=lambda m: m.bic) if adequate else None
     best_phys = min(physical, key=lambda m: m.bic) if physical else None
-    ref = best_curved if best_curved is not None else None
-    bend_v = float(np.max(np.abs(ref.curve - line.curve))) if ref is not None else 0.0
-    strength = bend_v / floor_v
+    ref = win or poly or best_curved
+    strength = _bend(ref, line) / floor_v
     words = strength_words(strength)
     ctx_c = _context_capacitance(context)
 
-    if best_curved is None or evidence <= BIC_MARGIN or strength < 1.0:
+    if evidence <= BIC_MARGIN or strength < 1.0:
+        if best_phys is not None and evidence <= BIC_MARGIN:
+            strength = _bend(best_phys, line) / floor_v
+            words = strength_words(strength)
         why = ("no curved model fits the averaged ramp better than a straight line by a clear "
                "margin" if evidence <= BIC_MARGIN else
                "a faint curve is there statistically, but it bends less than the capture "
@@ -585,7 +604,7 @@ def diagnose(averaged: AveragedCycle, figures: Figures, noise: NoiseFloor,
         lean = ""
         if best_phys is not None and strength > 0.3:
             lean = (f" The closest cause, {best_phys.name}, would bend it by "
-                    f"{100 * bend_v / span:.2g} % of the span.")
+                    f"{100 * _bend(best_phys, line) / span:.2g} % of the span.")
         explanation = (f"The ramp is straight to within what this capture resolves "
                        f"({floor_pct:.2g} % of the span): {why}.{lean}")
         return Diagnosis(signature="linear", strength=strength, strength_words=words,
@@ -593,49 +612,41 @@ def diagnose(averaged: AveragedCycle, figures: Figures, noise: NoiseFloor,
                          explanation=explanation, next_checks=NEXT_CHECKS["linear"],
                          model_scores=scores, evidence=float(evidence))
 
-    bow_v, _ = _smooth_peak(y - line.curve)
-    left: dict[str, float] = {}
-    for m in physical:
-        left[m.name] = _smooth_peak(y - m.curve)[0]
-    tol = max(floor_v, ADEQUATE_FRACTION * bow_v)
-    adequate = [m for m in physical if left[m.name] <= tol]
-    # an early relaxation with the slope starting low explains the shape but is no
-    # listed cause; it is reported (unclassified) when it beats every adequate cause
-    low = fits.get("relaxation-low")
-    low_wins = False
-    if low is not None:
-        low_left = _smooth_peak(y - low.curve)[0]
-        rival = min((m.bic for m in adequate), default=math.inf)
-        low_wins = low_left <= tol and low.bic < rival - BIC_MARGIN
-    if adequate and not low_wins:
-        win = min(adequate, key=lambda m: m.bic)
-        return _physical(win, x, y, line, T, span, floor_v, strength, words, scores, evidence,
+    if win is not None and win.name != "relaxation-low":
+        return _physical(win, x, line, T, span, strength, words, scores, evidence,
                          left[win.name], ctx_c)
 
     # unclassified: say what it looks like
-    curv = _curvature_of(fits.get("polynomial") or best_curved, x, line.curve, floor_v)
-    if low_wins:
-        tau = low.theta * T
-        shape = (f"The slope starts low after each reset and rises to its final value with a "
-                 f"time constant of about {_si(tau, 's')} ({100 * low.theta:.2g} % of the "
-                 f"ramp): the opposite of dielectric absorption, as an under-compensated probe "
-                 f"or a slow-settling reset would give.")
-        unexplained = low_left
+    if win is not None:  # an early relaxation with the slope starting low
+        tau = win.theta * T
+        curv = "convex"
+        description = (
+            f"The slope starts low after each reset and rises to its final value with a "
+            f"time constant of about {_si(tau, 's')} ({100 * win.theta:.2g} % of the ramp): "
+            f"the opposite of dielectric absorption, as an under-compensated probe or a "
+            f"slow-settling reset would give.")
+        unexplained = left[win.name]
     else:
-        shape = _describe_shape(x, y, fits, span)
         tau = None
-        unexplained = min(left.values()) if left else bow_v
+        curv = _curvature_of(poly or best_curved, x, line.curve, floor_v)
+        description = _describe_shape(x, y, fits, span)
+        unexplained = min((left[m.name] for m in physical), default=bow_v)
     nearest = ""
     if best_phys is not None:
         nearest = (f" The nearest listed cause, {best_phys.name}, leaves "
                    f"{100 * left[best_phys.name] / span:.2g} % of the span unexplained.")
-    explanation = f"{shape} None of shunt loading, a voltage coefficient or dielectric " \
-                  f"absorption explains it.{nearest}"
+    explanation = (f"{description} None of shunt loading, a voltage coefficient or "
+                   f"dielectric absorption explains it.{nearest}")
     return Diagnosis(signature="unclassified", strength=strength, strength_words=words,
                      curvature=curv, tau_s=tau, equivalent_shunt_ohm=None,
                      explanation=explanation, next_checks=NEXT_CHECKS["unclassified"],
                      model_scores=scores, evidence=float(evidence),
                      unexplained_pct=100.0 * unexplained / span)
+
+
+def _bend(m: ModelFit | None, line: ModelFit) -> float:
+    """Largest distance of a model from the best-fit line over the window, volts."""
+    return float(np.max(np.abs(m.curve - line.curve))) if m is not None else 0.0
 
 
 def _context_capacitance(context: Any) -> float | None:
@@ -645,8 +656,8 @@ def _context_capacitance(context: Any) -> float | None:
     return float(c) if c is not None and math.isfinite(c) and c > 0 else None
 
 
-def _physical(win: ModelFit, x: np.ndarray, y: np.ndarray, line: ModelFit, T: float,
-              span: float, floor_v: float, strength: float, words: str,
+def _physical(win: ModelFit, x: np.ndarray, line: ModelFit, T: float,
+              span: float, strength: float, words: str,
               scores: dict[str, float], evidence: float, left_v: float,
               cap_f: float | None) -> Diagnosis:
     name = win.name
@@ -657,7 +668,7 @@ def _physical(win: ModelFit, x: np.ndarray, y: np.ndarray, line: ModelFit, T: fl
         slope_drop = 1.0 - math.exp(-win.theta * (x[-1] - x[0]))
         if cap_f is not None:
             shunt = tau / cap_f
-        r_txt = (f" With the capacitance given, that is {_si(shunt, 'ohm')} across it." if
+        r_txt = (f" With the capacitance given, that is {_si(shunt, 'Ω')} across it." if
                  shunt is not None else " Give the capacitance to turn this into a resistance.")
         explanation = (
             f"The slope falls steadily as the voltage rises (by {100 * slope_drop:.2g} % across "
