@@ -38,7 +38,6 @@ A fixed seed per capture makes the output byte-for-byte repeatable.
 from __future__ import annotations
 
 import argparse
-import io
 import sys
 from dataclasses import dataclass
 from pathlib import Path
@@ -145,9 +144,6 @@ class Scope:
         noisy = v + rng.normal(0.0, self.noise_rms_v, v.shape)
         code = np.clip(np.rint((noisy - self.bottom_v) / self.step_v), 0, 2 ** self.bits - 1)
         return code.astype(np.int64)
-
-    def volts(self, code: np.ndarray) -> np.ndarray:
-        return self.bottom_v + code * self.step_v
 
 
 @dataclass(frozen=True)
@@ -349,7 +345,7 @@ def _common() -> list[tuple[str, str]]:
 
 def _fmt_codes(scope: Scope, code: np.ndarray, scale: float = 1.0, decimals: int = 2) -> np.ndarray:
     """Format converter codes as exact decimal strings of ``bottom + k step`` (times ``scale``)."""
-    # integer arithmetic in hundredths keeps every code an exact short decimal
+    # integer arithmetic in units of the last decimal keeps every code an exact short decimal
     unit = 10 ** decimals
     base = int(round(scope.bottom_v * scale * unit))
     step = int(round(scope.step_v * scale * unit))
