@@ -51,6 +51,10 @@ class CaptureError(TrueslopeError, ValueError):
         return f"{prefix}: {self.message}" if prefix else self.message
 
 
+class CaptureReadError(CaptureError):
+    """The file could not be opened or read (missing, a folder, no permission)."""
+
+
 class CaptureFormatError(CaptureError):
     """The text or binary layout is not one trueslope understands."""
 

@@ -1,0 +1,481 @@
+"""From numeric columns to a :class:`~trueslope.core.capture.Capture`.
+
+Every reader ends here, so the rules below hold for every layout:
+
+* an all-empty (all-NaN) column is left out, with a warning when it has a name;
+* a column of sample numbers (integers rising by exactly 1) is an index: it is
+  neither a channel nor time;
+* the time axis is the first column with a time unit, else the first column
+  named like time in any of several languages, else the first unit-less
+  column that rises steadily (not a channel-like name);
+* every sample must be finite: a NaN, an infinity or an empty field anywhere
+  is an error naming where (trueslope never fills gaps, so one isolated blank
+  field is refused just like a run of them);
+* the sample interval comes from the time axis
+  (``dt = (t[-1] - t[0]) / (n - 1)``), else the layout itself (a WAV rate),
+  else the caller's ``sample_interval_s``, else the preamble.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass
+from typing import Callable, Mapping, Protocol
+
+import numpy as np
+
+from ..capture import Capture
+from ..errors import (CaptureFormatError, EmptyCaptureError, NonFiniteDataError,
+                      NoSampleIntervalError, TimeAxisError, TooFewSamplesError,
+                      TrueslopeWarning, UnknownUnitError)
+from ..units import lookup_column_unit, parse_column_unit, parse_quantity, format_si
+
+#: Fewest samples a capture may have.
+MIN_SAMPLES = 16
+#: A time column off its uniform grid by more than this fraction of dt gets a warning.
+NONUNIFORM_FRACTION = 0.01
+#: Sample interval given by the caller and the file's own may differ this much silently.
+INTERVAL_AGREEMENT = 0.01
+
+# Names of a time axis in the languages oscilloscope software is commonly set to.
+_TIME_NAMES = frozenset([
+    "t", "x", "time", "times", "zeit", "temps", "tiempo", "tempo", "tid", "tijd", "czas",
+    "aika", "cas", "\u010das", "ido", "id\u0151", "\u0432\u0440\u0435\u043c\u044f",
+    "\u65f6\u95f4", "\u6642\u9593", "sec", "secs", "second", "seconds", "timestamp",
+    "time stamp", "horizontal", "x axis", "xaxis"])
+_CHANNEL_LIKE = re.compile(
+    r"^(ch|chan|channel|kanal|canal|voie|trace|signal|volt|volts|voltage|spannung|tension|"
+    r"tensi\u00f3n|input|in|ain|adc|probe|v|u|y|math|ref|left|right)\s*[-_#]?\s*\d*$")
+_INTERVAL_KEYS = frozenset([
+    "interval", "increment", "dt", "delta t", "\u03b4t", "\u0394t", "x increment", "xincrement",
+    "xincr", "x incr", "sample interval", "sampling interval", "sample period",
+    "sampling period", "time interval", "time increment", "time step", "timestep",
+    "time per sample", "time per point", "seconds per sample", "horizontal interval",
+    "horizontal increment", "sample time", "sampling time"])
+_INTERVAL_SUFFIXES = ("sample interval", "sampling interval", "sample period",
+                      "sampling period", "x increment", "time increment")
+_RATE_KEYS = frozenset([
+    "sample rate", "sampling rate", "samplerate", "sample frequency", "sampling frequency",
+    "fs", "rate", "samples per second", "sa/s", "sps"])
+_RATE_SUFFIXES = ("sample rate", "sampling rate", "sampling frequency", "sample frequency")
+_RATE_UNITS = frozenset(["sa/s", "s/s", "hz", "sps", "samples/s", "sample/s", "pts/s",
+                         "pt/s", "points/s", "samples/sec"])
+
+
+@dataclass
+class Column:
+    """One numeric column on its way into a capture.
+
+    Attributes
+    ----------
+    values : ndarray
+        float64 samples, already scaled to SI seconds or volts.
+    name : str
+        Clean name (unit removed); ``""`` when the layout gives none.
+    quantity : str or None
+        ``"time"``, ``"voltage"`` or None (no unit said).
+    number : int
+        1-based position in the file, for messages.
+    """
+
+    values: np.ndarray
+    name: str = ""
+    quantity: str | None = None
+    number: int = 0
+
+    def label(self) -> str:
+        return f"column {self.number} ({self.name!r})" if self.name else f"column {self.number}"
+
+
+class Locator(Protocol):
+    """Says where a 0-based data row lies in the file."""
+
+    def where(self, row: int) -> tuple[int | None, str]:
+        """``(line, text)``: the 1-based physical line (None if lines do not
+        apply to the layout) and words for a message (``"line 57"``)."""
+        ...
+
+
+class SampleLocator:
+    """Locator of binary layouts: rows are sample indices."""
+
+    def where(self, row: int) -> tuple[int | None, str]:
+        return None, f"sample index {row}"
+
+
+def column_units(names: list[str], path: str, line: int | None) -> list[tuple[str, str | None, float]]:
+    """Clean name, quantity and scale of every header name (UnknownUnitError located)."""
+    out = []
+    for j, raw in enumerate(names):
+        try:
+            cu = parse_column_unit(raw)
+        except UnknownUnitError as exc:
+            raise UnknownUnitError(exc.message, path, line, j + 1) from None
+        out.append((cu.name, cu.quantity, cu.scale))
+    return out
+
+
+def _norm_key(key: str) -> str:
+    k = re.sub(r"[\(\[\{][^\)\]\}]*[\)\]\}]", " ", key.lower())
+    k = re.sub(r"[_\-.:=#]+", " ", k)
+    return re.sub(r"\s+", " ", k).strip()
+
+
+def _key_unit(key: str) -> str:
+    m = re.search(r"[\(\[\{]\s*([^\)\]\}]*?)\s*[\)\]\}]\s*$", key)
+    return m.group(1) if m else ""
+
+
+def _meta_number(value: str, decimal: str) -> tuple[float, str] | None:
+    v = value.strip().strip('"').strip()
+    if decimal == ",":
+        v = re.sub(r"(\d),(\d)", r"\1.\2", v)
+    v = re.sub(r"[,;\t]+", " ", v).strip()
+    m = re.match(r"^([+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?)\s*(\S*)", v)
+    if not m:
+        return None
+    try:
+        return parse_quantity(f"{m.group(1)} {m.group(2)}".strip())
+    except Exception:  # noqa: BLE001 - any unreadable value is simply not an interval
+        return None
+
+
+def interval_from_metadata(metadata: Mapping[str, str], decimal: str = "."
+                           ) -> tuple[float | None, str | None, list[TrueslopeWarning]]:
+    """Sample interval stated in a preamble, seconds.
+
+    Keys such as ``interval``, ``increment``, ``sample interval``,
+    ``sample period``, ``x increment`` or ``dt`` give the interval (a value in
+    s, ms, us, ns, or a bare number of seconds); keys such as ``sample rate``
+    or ``fs`` give a rate (Sa/s, S/s, Hz with any prefix, or a bare number),
+    and the interval is its reciprocal. A unit may also sit in the key, e.g.
+    ``Sample Interval [us]``. The first interval key wins, else the first
+    rate key.
+
+    Returns
+    -------
+    interval_s : float or None
+    key : str or None
+        The metadata key it came from.
+    warnings : list of TrueslopeWarning
+        For keys that looked like an interval but could not be read.
+    """
+    found_interval: tuple[float, str] | None = None
+    found_rate: tuple[float, str] | None = None
+    warnings: list[TrueslopeWarning] = []
+    for key, value in metadata.items():
+        k = _norm_key(key)
+        is_interval = k in _INTERVAL_KEYS or k.endswith(_INTERVAL_SUFFIXES)
+        is_rate = k in _RATE_KEYS or k.endswith(_RATE_SUFFIXES)
+        if not (is_interval or is_rate):
+            continue
+        parsed = _meta_number(value, decimal)
+        interval = None
+        if parsed is not None:
+            number, unit = parsed
+            if not unit:
+                unit = _key_unit(key)
+                if unit:
+                    try:
+                        scaled, unit = parse_quantity(f"1 {unit}")
+                    except Exception:  # noqa: BLE001
+                        scaled, unit = 1.0, "?"
+                    number *= scaled
+            u = unit.strip().lower()
+            if u in _RATE_UNITS or (is_rate and not u):
+                interval = 1.0 / number if number > 0 else None
+            else:
+                t = lookup_column_unit(unit) if u else ("time", 1.0)
+                if t is not None and t[0] == "time":
+                    interval = number * t[1]
+        if interval is None or not math.isfinite(interval) or interval <= 0:
+            warnings.append(TrueslopeWarning(
+                "unreadable-interval",
+                f"the preamble entry {key!r} = {value!r} looks like a sample interval or rate "
+                f"but could not be read as one (expected e.g. '1e-6 s', '2 us' or '500 kSa/s'); "
+                f"it was not used"))
+            continue
+        if is_interval and found_interval is None:
+            found_interval = (interval, key)
+        elif is_rate and not is_interval and found_rate is None:
+            found_rate = (interval, key)
+    best = found_interval or found_rate
+    if best is None:
+        return None, None, warnings
+    return best[0], best[1], warnings
+
+
+def _is_index(x: np.ndarray) -> bool:
+    n = x.shape[0]
+    if n < 2 or not math.isfinite(x[0]) or x[0] != math.floor(x[0]):
+        return False
+    if x[1] - x[0] != 1.0 or x[-1] - x[0] != n - 1:  # cheap tests first
+        return False
+    return bool(np.all(np.diff(x) == 1.0))
+
+
+def _is_time_name(name: str) -> bool:
+    n = re.sub(r"\s+", " ", name.strip().lower())
+    return n in _TIME_NAMES or n.startswith(("time", "zeit", "temps", "tiempo"))
+
+
+def _rises_steadily(x: np.ndarray) -> bool:
+    """Taken for a time axis: rises on >= 99 % of steps and never drops by more
+    than 10 mean steps (a sawtooth's reset drops by its whole swing)."""
+    n = x.shape[0]
+    if n < 3 or not (math.isfinite(x[0]) and math.isfinite(x[-1])):
+        return False
+    mean_step = (x[-1] - x[0]) / (n - 1)
+    if not mean_step > 0:
+        return False
+    d = np.diff(x)
+    if not np.isfinite(d).all():
+        return False
+    return bool(np.count_nonzero(d > 0) >= 0.99 * d.shape[0] and d.min() >= -10.0 * mean_step)
+
+
+def _runs(mask: np.ndarray) -> tuple[int, int, int]:
+    """First run of True in ``mask``: (start, end inclusive, total True count)."""
+    idx = np.flatnonzero(mask)
+    start = int(idx[0])
+    gaps = np.flatnonzero(np.diff(idx) != 1)
+    end = int(idx[gaps[0]]) if gaps.size else int(idx[-1])
+    return start, end, int(idx.size)
+
+
+def _span(locate: Locator, a: int, b: int) -> tuple[int | None, str]:
+    la, ta = locate.where(a)
+    if a == b:
+        return la, ta
+    lb, tb = locate.where(b)
+    if la is not None and lb is not None:
+        return la, f"lines {la}-{lb}"
+    return la, f"{ta} to {tb.split()[-1]}"
+
+
+def _check_finite(cols: list[Column], locate: Locator, path: str) -> None:
+    bad: np.ndarray | None = None
+    names = []
+    for c in cols:
+        if np.isfinite(c.values).all():
+            continue
+        m = ~np.isfinite(c.values)
+        names.append(c.name or f"column {c.number}")
+        bad = m if bad is None else (bad | m)
+    if bad is None:
+        return
+    a, b, total = _runs(bad)
+    line, where = _span(locate, a, b)
+    first_col = next(c for c in cols if not np.isfinite(c.values[a]))
+    more = "" if total == b - a + 1 else f"; {total} rows in all have one"
+    raise NonFiniteDataError(
+        f"{where}: not a finite number (NaN, infinity or an empty field) in "
+        f"{', '.join(names)}{more}. Every sample must be a finite number: trueslope "
+        f"does not fill gaps, so even one blank field is refused; remove or repair those rows",
+        path, line, first_col.number or None)
+
+
+def _check_time(t: np.ndarray, col: Column, locate: Locator, path: str) -> None:
+    stalls = t[1:] <= t[:-1]  # a boolean, not a float difference: less memory
+    if not stalls.any():
+        return
+    i = int(np.argmax(stalls)) + 1
+    line, where = locate.where(i)
+    _, before = locate.where(i - 1)
+    what = "repeats" if t[i] == t[i - 1] else "goes backwards"
+    raise TimeAxisError(
+        f"{where}: time {what} ({t[i]:.9g} s after {t[i - 1]:.9g} s on {before}); "
+        f"the time column {col.name or col.number!r} must increase steadily",
+        path, line, col.number or None)
+
+
+def _grid_deviation(t: np.ndarray, dt: float) -> tuple[float, int]:
+    """Largest |t[k] - (t[0] + k dt)| and where, in blocks to bound memory."""
+    n = t.shape[0]
+    worst, at = 0.0, 0
+    block = 1 << 20
+    for a in range(0, n, block):
+        b = min(n, a + block)
+        dev = np.abs(t[a:b] - (t[0] + dt * np.arange(a, b, dtype=np.float64)))
+        k = int(np.argmax(dev))
+        if dev[k] > worst:
+            worst, at = float(dev[k]), a + k
+    return worst, at
+
+
+def _unique_names(cols: list[Column]) -> list[str]:
+    taken: set[str] = set()
+    out = []
+    for i, c in enumerate(cols, start=1):
+        base = c.name.strip() or f"CH{i}"
+        name, j = base, 2
+        while name in taken:
+            name, j = f"{base}_{j}", j + 1
+        taken.add(name)
+        out.append(name)
+    return out
+
+
+def assemble(columns: list[Column], *, path: str, locate: Locator, layout: str,
+             metadata: Mapping[str, str] | None = None,
+             warnings: list[TrueslopeWarning] | None = None,
+             sample_interval_s: float | None = None,
+             intrinsic_interval_s: float | None = None,
+             decimal: str = ".",
+             cancel: Callable[[], None] | None = None) -> Capture:
+    """Apply the common rules and build the capture.
+
+    Parameters
+    ----------
+    columns : list of Column
+        All numeric columns of the file, in file order, of equal length.
+    path : str
+        The file, for messages.
+    locate : Locator
+        Row-to-line mapping for messages.
+    layout : str
+        Description of the layout recognised.
+    metadata : mapping, optional
+        Preamble key/values.
+    warnings : list, optional
+        Warnings of the reader so far (this function adds its own).
+    sample_interval_s : float, optional
+        The caller's interval, seconds; used when the file has no time axis of
+        its own, overriding the preamble.
+    intrinsic_interval_s : float, optional
+        An interval fixed by the layout itself (a WAV sample rate); treated
+        like a time column.
+    decimal : str, optional
+        Decimal separator of the file, for numbers in the preamble.
+    cancel : callable, optional
+        Raises :class:`~trueslope.core.errors.Cancelled` when the caller wants to stop.
+
+    Raises
+    ------
+    EmptyCaptureError, TooFewSamplesError, NonFiniteDataError, TimeAxisError,
+    NoSampleIntervalError, CaptureFormatError
+    """
+    meta = dict(metadata or {})
+    warns = list(warnings or [])
+    check = cancel or (lambda: None)
+    if not columns or columns[0].values.shape[0] == 0:
+        raise EmptyCaptureError("no data rows: the file holds no numbers to read", path)
+    n = columns[0].values.shape[0]
+
+    kept = []
+    for c in columns:
+        if n and math.isnan(c.values[0]) and np.isnan(c.values).all():
+            if c.name:
+                warns.append(TrueslopeWarning(
+                    "empty-column", f"{c.label()} holds no numbers; it was left out"))
+            continue
+        kept.append(c)
+    if not kept:
+        raise EmptyCaptureError("every column is empty: there are no numbers to read", path)
+
+    index_cols = [c for c in kept if c.quantity is None and _is_index(c.values)]
+    others = [c for c in kept if c not in index_cols]
+    if not others:
+        raise EmptyCaptureError(
+            f"no channel: {index_cols[0].label()} only counts samples (0, 1, 2, ...); "
+            f"expected at least one column of voltage samples", path)
+    check()
+
+    time_col: Column | None = None
+    for c in others:
+        if c.quantity == "time":
+            time_col = c
+            break
+    if time_col is None:
+        for c in others:
+            if c.quantity is None and c.name and _is_time_name(c.name):
+                time_col = c
+                break
+    if time_col is None and len(others) > 1:
+        first = others[0]
+        if (first.quantity is None and not _CHANNEL_LIKE.match(first.name.strip().lower())
+                and _rises_steadily(first.values)):
+            time_col = first
+
+    channels = []
+    for c in others:
+        if c is time_col:
+            continue
+        if c.quantity == "time":
+            warns.append(TrueslopeWarning(
+                "extra-time-column",
+                f"{c.label()} is in units of time but is not the time axis; it was left out"))
+            continue
+        channels.append(c)
+    if not channels:
+        what = f"{time_col.label()} is the time axis" if time_col else "no column"
+        raise EmptyCaptureError(
+            f"no voltage channel: {what} and no other column holds samples; expected at "
+            f"least one column of voltages besides time", path)
+
+    if n < MIN_SAMPLES:
+        raise TooFewSamplesError(
+            f"only {n} sample{'s' if n != 1 else ''} found; at least {MIN_SAMPLES} are needed "
+            f"to measure a ramp", path)
+
+    _check_finite(([time_col] if time_col else []) + channels, locate, path)
+    check()
+
+    dt: float
+    t0 = 0.0
+    if time_col is not None:
+        t = time_col.values
+        _check_time(t, time_col, locate, path)
+        dt = float((t[-1] - t[0]) / (n - 1))
+        t0 = float(t[0])
+        worst, at = _grid_deviation(t, dt)
+        if worst > NONUNIFORM_FRACTION * dt:
+            _, where = locate.where(at)
+            warns.append(TrueslopeWarning(
+                "non-uniform-time",
+                f"the time column is not evenly spaced: it is off a uniform grid by up to "
+                f"{100.0 * worst / dt:.3g} % of the sample interval (worst at {where}); trueslope "
+                f"uses the uniform grid dt = (t_last - t_first) / (n - 1) = {format_si(dt, 's')}"))
+        source = f"the time column {time_col.name or time_col.number!r}"
+    elif intrinsic_interval_s is not None:
+        dt = float(intrinsic_interval_s)
+        source = "the file's sample rate"
+    else:
+        meta_dt, meta_key, meta_warns = interval_from_metadata(meta, decimal)
+        warns.extend(meta_warns)
+        if sample_interval_s is not None:
+            dt = float(sample_interval_s)
+            if meta_dt is not None and abs(meta_dt - dt) > INTERVAL_AGREEMENT * dt:
+                warns.append(TrueslopeWarning(
+                    "interval-overridden",
+                    f"the preamble says {meta_key!r} = {meta[meta_key]!r} "
+                    f"({format_si(meta_dt, 's')}); the sample interval given, "
+                    f"{format_si(dt, 's')}, was used instead"))
+            source = None
+        elif meta_dt is not None:
+            dt = meta_dt
+            source = None
+        else:
+            raise NoSampleIntervalError(
+                "no time column, no sample interval or sample rate in a preamble, and no "
+                "sample interval given: the time between samples is unknown. Pass it, e.g. "
+                "--sample-interval 1u for 1 microsecond per sample", path)
+    if time_col is not None or intrinsic_interval_s is not None:
+        if sample_interval_s is not None and abs(sample_interval_s - dt) > INTERVAL_AGREEMENT * dt:
+            warns.append(TrueslopeWarning(
+                "interval-ignored",
+                f"the sample interval given ({format_si(sample_interval_s, 's')}) was not used: "
+                f"{source} gives {format_si(dt, 's')}"))
+    if not (math.isfinite(dt) and dt > 0):
+        raise CaptureFormatError(f"the sample interval works out as {dt!r} s; expected a "
+                                 f"positive number of seconds", path)
+
+    names = _unique_names(channels)
+    chans = {name: np.ascontiguousarray(c.values, dtype=np.float64)
+             for name, c in zip(names, channels)}
+    time_name = None
+    if time_col is not None:
+        time_name = time_col.name or f"column {time_col.number}"
+    return Capture(source=path, channels=chans, sample_interval_s=dt, t0_s=t0,
+                   metadata=meta, warnings=tuple(warns), time_column=time_name, layout=layout)
