@@ -63,7 +63,7 @@ _RATE_UNITS = frozenset(["sa/s", "s/s", "hz", "sps", "samples/s", "sample/s", "p
                          "pt/s", "points/s", "samples/sec"])
 
 
-@dataclass
+@dataclass(eq=False)
 class Column:
     """One numeric column on its way into a capture.
 
@@ -268,11 +268,11 @@ def _check_finite(cols: list[Column], locate: Locator, path: str) -> None:
     a, b, total = _runs(bad)
     line, where = _span(locate, a, b)
     first_col = next(c for c in cols if not np.isfinite(c.values[a]))
-    more = "" if total == b - a + 1 else f"; {total} rows in all have one"
+    more = "" if total == b - a + 1 else f" ({total} rows in all have one)"
     raise NonFiniteDataError(
-        f"{where}: not a finite number (NaN, infinity or an empty field) in "
-        f"{', '.join(names)}{more}. Every sample must be a finite number: trueslope "
-        f"does not fill gaps, so even one blank field is refused; remove or repair those rows",
+        f"not a finite number (NaN, infinity or an empty field) in {', '.join(names)} on "
+        f"{where}{more}. Every sample must be a finite number: trueslope does not fill gaps, "
+        f"so even one blank field is refused; remove or repair those rows",
         path, line, first_col.number or None)
 
 
@@ -285,7 +285,7 @@ def _check_time(t: np.ndarray, col: Column, locate: Locator, path: str) -> None:
     _, before = locate.where(i - 1)
     what = "repeats" if t[i] == t[i - 1] else "goes backwards"
     raise TimeAxisError(
-        f"{where}: time {what} ({t[i]:.9g} s after {t[i - 1]:.9g} s on {before}); "
+        f"time {what} on {where}: {t[i]:.9g} s after {t[i - 1]:.9g} s on {before}; "
         f"the time column {col.name or col.number!r} must increase steadily",
         path, line, col.number or None)
 
@@ -375,7 +375,7 @@ def assemble(columns: list[Column], *, path: str, locate: Locator, layout: str,
         raise EmptyCaptureError("every column is empty: there are no numbers to read", path)
 
     index_cols = [c for c in kept if c.quantity is None and _is_index(c.values)]
-    others = [c for c in kept if c not in index_cols]
+    others = [c for c in kept if all(c is not i for i in index_cols)]
     if not others:
         raise EmptyCaptureError(
             f"no channel: {index_cols[0].label()} only counts samples (0, 1, 2, ...); "

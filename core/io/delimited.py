@@ -50,6 +50,7 @@ HEAD_BYTES = 64 * 1024
 MAX_HEAD_BYTES = 1024 * 1024
 #: Bytes of data parsed per block; progress and cancel are checked between blocks.
 BLOCK_BYTES = 4 * 1024 * 1024
+MIN_BLOCK_BYTES = 64 * 1024
 #: Lines the layout is guessed from (more only when no data is found in them).
 SNIFF_LINES = 1000
 #: Consecutive numeric rows that mark the start of the data.
@@ -102,26 +103,28 @@ def _split(line: str, delimiter: str | None) -> list[str]:
     return [p[1:-1].strip() if len(p) >= 2 and p[0] == p[-1] == '"' else p for p in parts]
 
 
-def _fields(line: str, delimiter: str | None) -> tuple[list[str], bool]:
+def _fields(line: str, delimiter: str | None, k: int) -> list[str]:
+    """Fields of a data row expected to hold ``k``; one trailing empty field
+    more (a row ending in the delimiter) is dropped."""
     parts = _split(line, delimiter)
-    if delimiter is not None and len(parts) > 1 and parts[-1] == "":
-        return parts[:-1], True
-    return parts, False
+    if delimiter is not None and len(parts) == k + 1 and parts[-1] == "":
+        parts.pop()
+    return parts
 
 
 def _kind(line: str, d: str | None, decimal: str) -> tuple[str, int, bool]:
-    """("blank" | "numeric" | "text", field count, trailing delimiter)."""
+    """("blank" | "numeric" | "text", raw field count, last field empty)."""
     if not line.strip():
         return "blank", 0, False
-    parts, trailing = _fields(line, d)
+    parts = _split(line, d)
     seen = False
     for p in parts:
         if p == "":
             continue
         if not _is_number(p, decimal):
-            return "text", len(parts), trailing
+            return "text", len(parts), parts[-1] == ""
         seen = True
-    return ("numeric" if seen else "blank"), len(parts), trailing
+    return ("numeric" if seen else "blank"), len(parts), len(parts) > 1 and parts[-1] == ""
 
 
 def _split_header(line: str, d: str | None, k: int) -> list[str] | None:
@@ -154,6 +157,30 @@ def _split_header(line: str, d: str | None, k: int) -> list[str] | None:
         if len(parts) == k:
             return [p.strip().strip('"') for p in parts]
     return None
+
+
+def _header_names(line: str, d: str | None, dec: str, k: int) -> list[str] | None:
+    """The ``k`` column names on this line, or None when it is not a header.
+
+    Not a header: a line that does not split into ``k`` names, a name that is
+    a number, a ``key: value`` or ``key = value`` pair (preamble), or, for a
+    single column, a comment line. A comment marker before a row of several
+    names is allowed (``# time, ch1`` as numpy.savetxt writes a header).
+    """
+    text = line.strip()
+    for marker in _COMMENT:
+        if text.startswith(marker):
+            if k == 1:
+                return None
+            text = text[len(marker):].strip()
+            break
+    names = _split_header(text, d, k)
+    if names is None:
+        return None
+    for n in names:
+        if n and (_is_number(n, dec) or re.match(r"^[^:=]*[^\W\d_][^:=]*\s*[:=]\s*\S", n)):
+            return None
+    return names
 
 
 def _is_unit_row(names: list[str]) -> bool:
@@ -215,6 +242,10 @@ def _decode_head(head: bytes, path: str) -> tuple[str, int]:
         raise CaptureFormatError(
             "binary data, not a capture: expected delimited text, a NumPy .npy file or a WAV file",
             path)
+    if b"\n" not in body and body.count(b"\r") > 1:
+        raise CaptureFormatError(
+            "lines end in a bare carriage return (old Mac style); expected LF or CRLF line "
+            "ends: convert the file, e.g. by opening and saving it in a text editor", path)
     cut = body.rfind(b"\n")
     sample = body if cut < 0 else body[:cut]
     try:
@@ -265,11 +296,16 @@ def _sniff(lines: list[tuple[int, str]], encoding: str, path: str, whole: bool) 
         if not runs:
             continue
         long_runs = [r for r in runs if r[1] >= MIN_RUN]
-        start, _, k = long_runs[0] if long_runs else max(runs, key=lambda r: (r[1], r[0]))
+        start, _, raw = long_runs[0] if long_runs else max(runs, key=lambda r: (r[1], r[0]))
+        in_run = [kinds[i] for i in range(start, len(kinds)) if kinds[i][0] == "numeric"
+                  and kinds[i][1] == raw]
+        # Rows that end in the delimiter carry one empty field more.
+        trailing = raw > 1 and sum(1 for kd in in_run if kd[2]) > len(in_run) // 2
+        k = raw - 1 if trailing else raw
         after = [kinds[i] for i in range(start, len(kinds)) if kinds[i][0] != "blank"]
-        if whole and after and after[-1][1] < k:
+        if whole and after and after[-1][1] < raw:
             after = after[:-1]  # a truncated last line is not evidence against the dialect
-        coverage = sum(1 for kd in after if kd[0] == "numeric" and kd[1] == k)
+        coverage = sum(1 for kd in after if kd[0] == "numeric" and kd[1] == raw)
         bad = len(after) - coverage
         # "0,05" read as two integers "0" and "05" hints at a decimal comma.
         suspicious = 0
@@ -281,13 +317,11 @@ def _sniff(lines: list[tuple[int, str]], encoding: str, path: str, whole: bool) 
         header_idx = next((i for i in range(start - 1, -1, -1) if kinds[i][0] != "blank"), None)
         header_match = 0
         if header_idx is not None and kinds[header_idx][0] == "text":
-            names = _split_header(lines[header_idx][1], d, k)
-            if names is not None and not any(_is_number(n, dec) for n in names if n):
+            if _header_names(lines[header_idx][1], d, dec, k) is not None:
                 header_match = 1
-        trailing = sum(1 for i in range(start, len(kinds)) if kinds[i][0] == "numeric" and kinds[i][2])
-        score = (-bad, -suspicious, coverage, header_match, k, -prio)
+        score = (coverage - bad, -suspicious, header_match, k, -prio)
         if best is None or score > best[0]:
-            best = (score, d, dec, k, start, header_idx, trailing > coverage // 2)
+            best = (score, d, dec, k, start, header_idx, trailing)
     if best is None:
         return None
     _, d, dec, k, start, header_idx, trailing = best
@@ -299,16 +333,15 @@ def _sniff(lines: list[tuple[int, str]], encoding: str, path: str, whole: bool) 
     first_meta = header_idx  # last preamble line (index), inclusive
     if header_idx is not None:
         text = lines[header_idx][1]
-        names = _split_header(text, d, k)
+        names = _header_names(text, d, dec, k)
         kind = _kind(text, d, dec)[0]
-        if names is not None and kind == "text" and not any(_is_number(n, dec) for n in names if n):
+        if names is not None and kind == "text":
             header, header_line = names, header_idx + 1
             first_meta = header_idx - 1
             above = next((i for i in range(header_idx - 1, -1, -1) if lines[i][1].strip()), None)
             if above is not None and _is_unit_row(names):
-                top = _split_header(lines[above][1], d, k)
-                if top is not None and not any(_is_number(n, dec) for n in top if n) \
-                        and not _is_unit_row(top):
+                top = _header_names(lines[above][1], d, dec, k)
+                if top is not None and not _is_unit_row(top):
                     # Names on one row, units on the next: "Time,CH1" then "s,mV".
                     header = [f"{n} [{u.strip('()[]{} ')}]" if u else n for n, u in zip(top, names)]
                     header_line, units_row, first_meta = above + 1, True, above - 1
@@ -363,9 +396,12 @@ class _Blocks:
         self.mm, self.start, self.end = mm, start, end
         self.first_line, self.encoding, self.dialect, self.path = first_line, encoding, dialect, path
         self.bounds: list[tuple[int, int]] = []
+        # About 16 blocks for a mid-sized file, so progress moves; big blocks
+        # for a big file, so the parser's per-call cost stays small.
+        step = min(BLOCK_BYTES, max(MIN_BLOCK_BYTES, (end - start) // 16))
         a = start
         while a < end:
-            b = min(end, a + BLOCK_BYTES)
+            b = min(end, a + step)
             if b < end:
                 nl = mm.find(b"\n", b, end)
                 b = end if nl < 0 else nl + 1
@@ -410,7 +446,7 @@ def _parse_lines(blk: _Blocks, a: int, b: int, cancel: Callable[[], None]) -> li
             cancel()
         text = raw.decode(blk.encoding, errors="replace").strip()
         if text:
-            parts, _ = _fields(text, d)
+            parts = _fields(text, d, k)
             if len(parts) != k:
                 raise RaggedRowsError(
                     f"the row has {len(parts)} field{'s' if len(parts) != 1 else ''}, expected "
@@ -488,7 +524,7 @@ def _data_end(blk_mm: mmap.mmap, size: int, sniff: _Sniff, path: str
         return e, None, None
     has_eol = blk_mm.find(b"\n", e, size) >= 0
     text = blk_mm[ls:e].decode(sniff.encoding, errors="replace").strip()
-    parts, _ = _fields(text, d)
+    parts = _fields(text, d, k)
     reason = None
     if len(parts) < k:
         reason = f"it has {len(parts)} of the {k} fields"
@@ -503,7 +539,7 @@ def _data_end(blk_mm: mmap.mmap, size: int, sniff: _Sniff, path: str
                 ps = blk_mm.rfind(b"\n", start, pe) + 1 or start
                 t = blk_mm[ps:pe].decode(sniff.encoding, errors="replace").strip()
                 if t:
-                    f, _ = _fields(t, d)
+                    f = _fields(t, d, k)
                     if len(f) == k:
                         prev.append(f)
                 pe = ps - 1
