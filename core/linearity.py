@@ -128,11 +128,14 @@ def cycle_pass(x: np.ndarray, dt: float, t0: float, seg: Segmentation, trim: flo
     out = {k: np.zeros(nc) for k in ("slope", "intercept", "se", "dof", "peak", "tpeak",
                                       "span", "tspan", "start", "end", "ssr", "nwin")}
     acc = {k: np.zeros(bins + 1) for k in ("n", "u", "y", "r", "rr")}
+    # blocks of about an eighth of the record (at most BLOCK_SAMPLES) keep the working
+    # memory a small multiple of the record on short and long captures alike
+    block = int(min(BLOCK_SAMPLES, max(50_000, x.size // 8)))
     c0 = 0
     while c0 < nc:
         if cancel is not None and cancel():
             raise Cancelled("analysis cancelled")
-        c1 = int(np.searchsorted(r1, r0[c0] + BLOCK_SAMPLES, side="right"))
+        c1 = int(np.searchsorted(r1, r0[c0] + block, side="right"))
         c1 = min(max(c1, c0 + 1), nc)
         sl = slice(c0, c1)
         base = int(r0[c0])
@@ -412,20 +415,19 @@ def build_cycles(cyc: _CycleArrays, seg: Segmentation, sign: float) -> tuple[Cyc
     # floors: 0.2 % of slope or ramp time, 0.05 percentage points (+10 %) of nonlinearity
     out_flag = robust_outliers([(cyc.slope, 2e-3, 0.0), (cyc.ramp_time_s, 2e-3, 0.0),
                                 (nl, 0.1, 0.05)])
-    recs = []
-    for i in range(cyc.slope.size):
-        b = sign * cyc.slope[i]
-        h = tq[i] * cyc.slope_se[i]
-        start = sign * cyc.start_v[i]
-        end = sign * cyc.end_v[i]
-        recs.append(CycleFigures(
-            index=i, ramp_start_s=float(cyc.ramp_start_s[i]), ramp_time_s=float(cyc.ramp_time_s[i]),
-            retrace_time_s=float(retrace[i]), period_s=float(period[i]),
-            offset_v=float(sign * cyc.intercept[i]), start_v=float(start), end_v=float(end),
-            amplitude_v=float(abs(end - start)), slope_v_per_s=float(b),
-            slope_ci95_v_per_s=(float(b - h), float(b + h)),
-            peak_deviation_v=float(cyc.peak[i]), nonlinearity_pct=float(nl[i]),
-            terminal_nonlinearity_pct=float(tnl[i]),
-            residual_rms_v=float(math.sqrt(cyc.ssr[i] / cyc.n_win[i])),
-            outlier=bool(out_flag[i])))
-    return tuple(recs)
+    b = sign * cyc.slope
+    h = tq * cyc.slope_se
+    start = sign * cyc.start_v
+    end = sign * cyc.end_v
+    cols = zip(cyc.ramp_start_s.tolist(), cyc.ramp_time_s.tolist(), retrace.tolist(),
+               period.tolist(), (sign * cyc.intercept).tolist(), start.tolist(), end.tolist(),
+               np.abs(end - start).tolist(), b.tolist(), (b - h).tolist(), (b + h).tolist(),
+               cyc.peak.tolist(), nl.tolist(), tnl.tolist(),
+               np.sqrt(cyc.ssr / cyc.n_win).tolist(), out_flag.tolist())
+    return tuple(
+        CycleFigures(index=i, ramp_start_s=c[0], ramp_time_s=c[1], retrace_time_s=c[2],
+                     period_s=c[3], offset_v=c[4], start_v=c[5], end_v=c[6], amplitude_v=c[7],
+                     slope_v_per_s=c[8], slope_ci95_v_per_s=(c[9], c[10]),
+                     peak_deviation_v=c[11], nonlinearity_pct=c[12],
+                     terminal_nonlinearity_pct=c[13], residual_rms_v=c[14], outlier=c[15])
+        for i, c in enumerate(cols))

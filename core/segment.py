@@ -289,12 +289,25 @@ def _segment_with_sync(x: np.ndarray, s: np.ndarray, dt: float, t0: float,
     den = np.where(a != b, b - a, 1.0)
     reset_idx = (i - 1) + np.clip((s_mid - a) / den, 0.0, 1.0)
     width = max(4, int(0.1 * period))
-    peak = _window_argext(xm, edges - width, 2 * width, "max")
-    trough = _window_argext(xm, np.maximum(peak, edges - width // 2), 2 * width, "min")
     keep = (edges - width > 0) & (edges + 2 * width < n)
-    peak, trough, reset_idx = peak[keep], trough[keep], reset_idx[keep]
-    if peak.size < 2:
+    edges, reset_idx = edges[keep], reset_idx[keep]
+    if edges.size < 2:
         raise NoFullCycleError("fewer than two full cycles between sync edges")
+    lo_m = levels.low_v if direction == "rising" else -levels.high_v
+    # the ramp's own fast edge near each sync edge gives the retrace's extent
+    t50 = _local_crossing(xm, edges - width, edges + width, lo_m + 0.5 * span, "last")
+    i50 = np.where(np.isfinite(t50), np.ceil(np.nan_to_num(t50)), edges).astype(np.int64)
+    t90 = _local_crossing(xm, edges - width, i50, lo_m + 0.9 * span, "last")
+    t10 = _local_crossing(xm, i50 - 1, edges + width, lo_m + 0.1 * span, "first")
+    fall = t10 - t90
+    ext = 0.125 * fall
+    ok = np.isfinite(fall)
+    peak = _window_argext(xm, edges - width, 2 * width, "max").astype(float)
+    trough = _window_argext(xm, np.maximum(peak.astype(np.int64), edges - width // 2),
+                            2 * width, "min").astype(float)
+    peak = np.where(ok, t90 - ext, peak)
+    trough = np.where(ok, t10 + ext, trough)
+    trough = np.maximum(trough, peak + 1e-3)
     ramp_start = t0 + trough[:-1] * dt
     ramp_end = t0 + peak[1:] * dt
     retrace_end = t0 + trough[1:] * dt
