@@ -72,8 +72,9 @@ def quantise(v: np.ndarray, bits: int, full_scale_v: tuple[float, float],
 
 # ------------------------------------------------------------------ writers
 # Every writer takes (path, t0_s, dt_s, v) and returns the keyword arguments
-# the importer needs besides the path (only the layouts without any time
-# information need one: the sample interval).
+# the importer needs besides the path (only a layout without any time
+# information needs one: the sample interval), plus ``_gain``/``_offset_v``
+# for a layout without a voltage unit.
 
 def _time(t0: float, dt: float, n: int) -> np.ndarray:
     return t0 + dt * np.arange(n)
@@ -139,13 +140,24 @@ def write_npy(path: Path, t0: float, dt: float, v: np.ndarray) -> dict:
     return {"sample_interval_s": dt}
 
 
-def write_wav(path: Path, t0: float, dt: float, v: np.ndarray) -> dict:
-    """16-bit PCM WAV, full scale = +-1 V (``scipy.io.wavfile``); rate = 1 / dt."""
+def write_wav(path: Path, t0: float, dt: float, v: np.ndarray,
+              full_scale_v: tuple[float, float] | None = None) -> dict:
+    """16-bit PCM WAV (``scipy.io.wavfile``), rate = 1 / dt.
+
+    A WAV file holds no unit: the ADC range ``full_scale_v`` (lo, hi) maps onto
+    the int16 range, ``code = round((v - mid) / span * 32768)``, so a capture
+    quantised to 8-16 bits over that range keeps its codes exactly. The
+    importer reads fractions of full scale ``x = code / 32768``; the returned
+    ``_gain`` (span) and ``_offset_v`` (mid) take them back to volts,
+    ``v = _gain * x + _offset_v``.
+    """
     from scipy.io import wavfile
-    rate = int(round(1.0 / dt))
-    codes = np.clip(np.round(np.asarray(v) * 32767.0), -32768, 32767).astype(np.int16)
-    wavfile.write(path, rate, codes)
-    return {}
+    x = np.asarray(v, dtype=float)
+    lo, hi = full_scale_v if full_scale_v is not None else full_scale_for(x)
+    mid, span = 0.5 * (lo + hi), hi - lo
+    codes = np.clip(np.round((x - mid) / span * 32768.0), -32768, 32767).astype(np.int16)
+    wavfile.write(path, int(round(1.0 / dt)), codes)
+    return {"_gain": span, "_offset_v": mid}
 
 
 #: layout name -> (file suffix, writer)
@@ -161,11 +173,24 @@ LAYOUTS: dict[str, tuple[str, Callable[..., dict]]] = {
 }
 
 
-def write_layout(layout: str, folder: Path, stem: str, t0: float, dt: float,
-                 v: np.ndarray) -> tuple[Path, dict]:
-    """Write ``v`` in ``layout`` under ``folder``; return the path and importer keywords."""
+#: layouts that carry a time column
+WITH_TIME_COLUMN = frozenset({"csv_units", "semicolon_comma", "tab", "spaces", "preamble"})
+
+
+def write_layout(layout: str, folder: Path, stem: str, t0: float, dt: float, v: np.ndarray,
+                 full_scale_v: tuple[float, float] | None = None) -> tuple[Path, dict]:
+    """Write ``v`` in ``layout`` under ``folder``.
+
+    Returns the path and the importer's keyword arguments; keys starting with
+    ``_`` are not for the importer: ``_gain`` and ``_offset_v`` take a
+    unitless layout's values back to volts (``v = _gain * x + _offset_v``).
+    ``full_scale_v`` is the ADC range the samples were quantised over (used by
+    the layouts that store codes).
+    """
     suffix, writer = LAYOUTS[layout]
     path = Path(folder) / f"{stem}{suffix}"
+    if writer is write_wav:
+        return path, writer(path, t0, dt, v, full_scale_v)
     return path, writer(path, t0, dt, v)
 
 

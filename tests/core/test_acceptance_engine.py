@@ -28,7 +28,8 @@ import importlib.util
 import numpy as np
 import pytest
 
-from spice_cases import LAYOUTS, FIXTURES, full_scale_for, list_cases, load_case, quantise, write_layout
+from spice_cases import (FIXTURES, LAYOUTS, WITH_TIME_COLUMN, full_scale_for, list_cases,
+                         load_case, quantise, write_layout)
 from trueslope.core.analysis import analyse
 from trueslope.core.capture import Capture
 from trueslope.core.settings import Settings
@@ -90,7 +91,8 @@ def shortfalls(figures, ref: dict, gain: float = 1.0, offset_v: float = 0.0) -> 
 
 def _degraded(case: str, bits: int, noise_v: float, seed: int):
     t0, dt, v, truth = load_case(case)
-    return t0, dt, quantise(v, bits, full_scale_for(v), noise_v, seed), truth
+    fs = full_scale_for(v)
+    return t0, dt, quantise(v, bits, fs, noise_v, seed), truth, fs
 
 
 def test_every_case_has_ten_cycles_or_more():
@@ -105,10 +107,13 @@ def test_every_case_has_ten_cycles_or_more():
 def test_engine_on_simulator_capture_files(tmp_path, case, layout, bits, noise_v, seed):
     from trueslope.core.io import load_capture
 
-    t0, dt, v, truth = _degraded(case, bits, noise_v, seed)
-    path, kwargs = write_layout(layout, tmp_path, case, t0, dt, v)
+    t0, dt, v, truth, fs = _degraded(case, bits, noise_v, seed)
+    path, kwargs = write_layout(layout, tmp_path, case, t0, dt, v, fs)
     gain, offset = kwargs.pop("_gain", 1.0), kwargs.pop("_offset_v", 0.0)
     cap = load_capture(path, **kwargs)
+    # the layout was read as written: one channel, time axis from the file where it has one
+    assert cap.channel_names == ["CH1"]
+    assert (cap.time_column is not None) == (layout in WITH_TIME_COLUMN)
     assert cap.sample_interval_s == pytest.approx(dt, rel=1e-6)
     a = analyse(cap, Settings())
     assert a.figures.full_cycles >= 10
@@ -120,7 +125,7 @@ def test_engine_on_simulator_capture_files(tmp_path, case, layout, bits, noise_v
 @pytest.mark.parametrize("case,bits,noise_v,seed", MEMORY_GRID,
                          ids=[f"{c}-{b}bit-{n * 1e3:.0f}mV" for c, b, n, _ in MEMORY_GRID])
 def test_engine_on_simulator_captures_in_memory(case, bits, noise_v, seed):
-    t0, dt, v, truth = _degraded(case, bits, noise_v, seed)
+    t0, dt, v, truth, _ = _degraded(case, bits, noise_v, seed)
     cap = Capture(source=f"{case}.npz", channels={"CH1": v}, sample_interval_s=dt, t0_s=t0)
     a = analyse(cap, Settings())
     bad = shortfalls(a.figures, truth["reference"])
@@ -143,7 +148,7 @@ def test_straight_ramp_on_8_bits_is_reported_straight(case, noise_v):
     # ramp, the maximum residual of each cycle against its own line is about
     # half an ADC step plus noise peaks, several tenths of a percent of the
     # span; trueslope must report the ramp straight to within its floor.
-    t0, dt, v, truth = _degraded(case, 8, noise_v, seed=int(noise_v * 1e4))
+    t0, dt, v, truth, _ = _degraded(case, 8, noise_v, seed=int(noise_v * 1e4))
     assert truth["reference"]["nonlinearity_pct"] < 1e-3  # the simulator's ramp is straight
     naive = _naive_per_cycle_nonlinearity(t0, dt, v, truth["direction"])
     assert naive > 0.2  # what a per-cycle maximum would have claimed
