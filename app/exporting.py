@@ -34,19 +34,19 @@ def save_csv(analysis: Any, path: str | os.PathLike[str]) -> None:
 
 
 def copy_figures(analysis: Any, clipboard: QtGui.QClipboard | None = None) -> str:
-    """Put the summary on the clipboard as text (and the figures as ``text/csv``).
+    """Put the summary figures on the clipboard as plain text.
+
+    Plain text only: handing the clipboard a QMimeData made in Python (to add
+    the CSV as well) crashes PySide6 when the application exits.
 
     Returns
     -------
     str
         The text placed on the clipboard.
     """
-    from trueslope.core.report import figures_csv, summary_text
+    from trueslope.core.report import summary_text
     text = summary_text(analysis)
-    mime = QtCore.QMimeData()
-    mime.setText(text)
-    mime.setData("text/csv", figures_csv(analysis).encode("utf-8"))
-    (clipboard or QtWidgets.QApplication.clipboard()).setMimeData(mime)
+    (clipboard or QtWidgets.QApplication.clipboard()).setText(text)
     return text
 
 

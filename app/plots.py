@@ -121,6 +121,7 @@ class PlotArea(pg.GraphicsLayoutWidget):
         self._shown = 0
         self._all_fits = False
         self._placing_band = False
+        self._t_range: tuple[float, float] | None = None
 
         self.trace_plot: pg.PlotItem = self.addPlot(row=0, col=0)
         self.residual_plot: pg.PlotItem = self.addPlot(
@@ -227,6 +228,7 @@ class PlotArea(pg.GraphicsLayoutWidget):
         """
         self._analysis = None
         self.trace_curve.setData([], [])
+        self._t_range = None
         for item in (self.fit_shown, self.fit_others, self.residual_points, self.residual_smooth):
             item.setData([], [])
         for item in (self.band, self.band_copy, self.cycle_fill, self.noise_band):
@@ -243,6 +245,8 @@ class PlotArea(pg.GraphicsLayoutWidget):
         if x_range is not None:
             self.trace_plot.setXRange(*x_range, padding=0)
         self.trace_curve.y_all_finite = trace.all_finite
+        t = trace.time_s
+        self._t_range = (float(t[0]), float(t[-1])) if len(t) else None
         self.trace_curve.setSkipFiniteCheck(trace.all_finite)
         self.trace_curve.setData(trace.time_s, trace.voltage_v, connect="all" if trace.all_finite else "finite")
 
@@ -365,8 +369,12 @@ class PlotArea(pg.GraphicsLayoutWidget):
 
     def zoom_to_all(self) -> None:
         """Show the whole capture."""
-        self.trace_plot.enableAutoRange(x=True, y=True)
-        self.trace_plot.autoRange()
+        # From the data, not autoRange(): a clipped curve reports the bounds
+        # of what it last drew, not of the record.
+        if self._t_range is not None:
+            self.trace_plot.setXRange(*self._t_range, padding=0.01)
+        else:
+            self.trace_plot.enableAutoRange(x=True)
         self._auto_y()
 
     def _auto_y(self) -> None:

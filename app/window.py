@@ -27,8 +27,9 @@ from .panels import CapturePanel, CycleTable, FiguresPanel, FindingsPanel
 from .plots import PlotArea, cycle_view
 from .store import Store
 
-CAPTURE_FILTER = ("Captures (*.csv *.txt *.tsv *.dat *.parquet *.npz *.npy);;"
-                  "All files (*)")
+#: Open-dialog filter: the layouts trueslope.core.io reads (any text file is tried).
+CAPTURE_FILTER = ("Captures (*.csv *.txt *.tsv *.dat *.npy *.wav);;"
+                  "Text exports (*.csv *.txt *.tsv *.dat);;All files (*)")
 
 
 def describe_error(exc: BaseException) -> str:

@@ -46,10 +46,22 @@ def window(qtbot, store):
 
 
 def open_and_wait(qtbot, win, path, timeout_ms=60000, **kwargs):
-    """Open ``path`` in ``win`` and wait until its analysis is drawn; returns the analysis."""
-    with qtbot.waitSignal(win.analysis_shown, timeout=timeout_ms) as blocker:
+    """Open ``path`` in ``win`` and wait until its analysis is drawn; returns the analysis.
+
+    Fails at once, with the window's message, if the open fails.
+    """
+    got: list = []
+    failed: list = []
+    win.analysis_shown.connect(got.append)
+    win.job_failed.connect(failed.append)
+    try:
         win.open_file(str(path), **kwargs)
-    return blocker.args[0]
+        qtbot.waitUntil(lambda: bool(got or failed), timeout=timeout_ms)
+    finally:
+        win.analysis_shown.disconnect(got.append)
+        win.job_failed.disconnect(failed.append)
+    assert not failed, failed[0]
+    return got[0]
 
 
 def wait_failed(qtbot, win, action, timeout_ms=60000):
