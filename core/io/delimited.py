@@ -113,18 +113,24 @@ def _fields(line: str, delimiter: str | None, k: int) -> list[str]:
 
 
 def _kind(line: str, d: str | None, decimal: str) -> tuple[str, int, bool]:
-    """("blank" | "numeric" | "text", raw field count, last field empty)."""
+    """("blank" | "numeric" | "text", field count, row ends in the delimiter).
+
+    A row ending in the delimiter counts one field less, so that rows with and
+    without a trailing delimiter belong to the same block of data.
+    """
     if not line.strip():
         return "blank", 0, False
     parts = _split(line, d)
+    trailing = d is not None and len(parts) > 1 and parts[-1] == ""
+    count = len(parts) - (1 if trailing else 0)
     seen = False
     for p in parts:
         if p == "":
             continue
         if not _is_number(p, decimal):
-            return "text", len(parts), parts[-1] == ""
+            return "text", count, trailing
         seen = True
-    return ("numeric" if seen else "blank"), len(parts), len(parts) > 1 and parts[-1] == ""
+    return ("numeric" if seen else "blank"), count, trailing
 
 
 def _split_header(line: str, d: str | None, k: int) -> list[str] | None:
@@ -296,16 +302,25 @@ def _sniff(lines: list[tuple[int, str]], encoding: str, path: str, whole: bool) 
         if not runs:
             continue
         long_runs = [r for r in runs if r[1] >= MIN_RUN]
-        start, _, raw = long_runs[0] if long_runs else max(runs, key=lambda r: (r[1], r[0]))
+        start, _, k = long_runs[0] if long_runs else max(runs, key=lambda r: (r[1], r[0]))
         in_run = [kinds[i] for i in range(start, len(kinds)) if kinds[i][0] == "numeric"
-                  and kinds[i][1] == raw]
-        # Rows that end in the delimiter carry one empty field more.
-        trailing = raw > 1 and sum(1 for kd in in_run if kd[2]) > len(in_run) // 2
-        k = raw - 1 if trailing else raw
+                  and kinds[i][1] == k]
+        trailing = sum(1 for kd in in_run if kd[2]) > len(in_run) // 2
+        header_idx = next((i for i in range(start - 1, -1, -1) if kinds[i][0] != "blank"), None)
+        widened = False
+        if trailing and header_idx is not None:
+            # "1," under a header "CH1,CH2" is an empty last column, not a trailing delimiter.
+            names = _header_names(lines[header_idx][1], d, dec, k + 1)
+            if names is not None and names[-1]:
+                trailing, k, widened = False, k + 1, True
+
+        def fits(kd: tuple[str, int, bool]) -> bool:
+            return kd[0] == "numeric" and (kd[1] == k or (widened and kd[1] == k - 1))
+
         after = [kinds[i] for i in range(start, len(kinds)) if kinds[i][0] != "blank"]
-        if whole and after and after[-1][1] < raw:
+        if whole and after and not fits(after[-1]) and after[-1][1] < k:
             after = after[:-1]  # a truncated last line is not evidence against the dialect
-        coverage = sum(1 for kd in after if kd[0] == "numeric" and kd[1] == raw)
+        coverage = sum(1 for kd in after if fits(kd))
         bad = len(after) - coverage
         # "0,05" read as two integers "0" and "05" hints at a decimal comma.
         suspicious = 0
@@ -314,7 +329,6 @@ def _sniff(lines: list[tuple[int, str]], encoding: str, path: str, whole: bool) 
                 if re.search(r"(?:^|,)\s*0\d", lines[i][1]):
                     suspicious = 1
                     break
-        header_idx = next((i for i in range(start - 1, -1, -1) if kinds[i][0] != "blank"), None)
         header_match = 0
         if header_idx is not None and kinds[header_idx][0] == "text":
             if _header_names(lines[header_idx][1], d, dec, k) is not None:
