@@ -65,7 +65,8 @@ def test_readable_summary_and_cycles_csv(ramp_csv, tmp_path, capsys):
 
 @pytest.mark.parametrize("content,words", [
     ("", "empty"),
-    ("time,CH1\n0,1\n1e-6,2,3\n" * 3, "line"),
+    ("time,CH1\n" + "".join(f"{i}e-6,{i % 10}\n" for i in range(40)) + "40e-6,1,7\n"
+     + "".join(f"{i}e-6,{i % 10}\n" for i in range(41, 80)), "line 42"),
 ])
 def test_bad_input_exits_2_with_one_line(tmp_path, capsys, content, words):
     p = tmp_path / "bad.csv"
