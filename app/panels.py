@@ -267,6 +267,10 @@ class CycleTable(QtWidgets.QTableView):
         finally:
             self._quiet = False
         self.resizeColumnsToContents()
+        # Share the spare width among the figure columns rather than leave a gap.
+        header = self.horizontalHeader()
+        for c in range(1, self.cycle_model.columnCount()):
+            header.setSectionResizeMode(c, QtWidgets.QHeaderView.ResizeMode.Stretch)
 
     def select_cycle(self, row: int) -> None:
         """Highlight a row without emitting :attr:`cycle_chosen`."""
@@ -560,17 +564,18 @@ class CapturePanel(QtWidgets.QWidget):
         super().__init__(parent)
         lay = QtWidgets.QVBoxLayout(self)
         lay.setContentsMargins(6, 4, 6, 6)
-        wbox = QtWidgets.QGroupBox("Import warnings")
+        wbox = QtWidgets.QGroupBox("Warnings (from the import and the analysis)")
         wl = QtWidgets.QVBoxLayout(wbox)
         self.warnings = QtWidgets.QListWidget()
         self.warnings.setWordWrap(True)
-        self.warnings.setMaximumHeight(120)
+        self.warnings.setMaximumHeight(96)
         wl.addWidget(self.warnings)
         mbox = QtWidgets.QGroupBox("Capture")
         ml = QtWidgets.QVBoxLayout(mbox)
         self.table = QtWidgets.QTableWidget(0, 2)
         self.table.setHorizontalHeaderLabels(["Field", "Value"])
         self.table.verticalHeader().setVisible(False)
+        self.table.verticalHeader().setDefaultSectionSize(22)
         self.table.horizontalHeader().setStretchLastSection(True)
         self.table.setEditTriggers(QtWidgets.QAbstractItemView.EditTrigger.NoEditTriggers)
         self.table.setWordWrap(True)
