@@ -219,11 +219,11 @@ class _Fitter:
         res = self.wy - q @ qy
         return float(res @ res), c
 
-    def _projector(self, fixed: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    def _projector(self, fixed: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         key = fixed.shape[1]
         if key not in self._q:
-            q, _ = np.linalg.qr(fixed * self.w[:, None])
-            self._q[key] = (q, self.wy - q @ (q.T @ self.wy))
+            q, r = np.linalg.qr(fixed * self.w[:, None])
+            self._q[key] = (q, r, self.wy - q @ (q.T @ self.wy))
         return self._q[key]
 
     def profile(self, name: str, fixed: np.ndarray, column: Callable[[float], np.ndarray],
@@ -234,7 +234,7 @@ class _Fitter:
         Only solutions with ``sign * a > 0`` are admissible (the physical sign of
         the bend); others score +inf. Returns None when no trial was admissible.
         """
-        q, ry = self._projector(fixed)
+        q, rq, ry = self._projector(fixed)
         ry2 = float(ry @ ry)
         s_lo, s_hi = math.log(lo), math.log(hi)
 
@@ -265,11 +265,46 @@ class _Fitter:
             if math.isfinite(res.fun) and res.fun < best_c:
                 best_s = float(res.x)
         theta = math.exp(best_s)
-        basis = np.column_stack([fixed, column(theta)])
-        chi2, c = self.solve(basis)
+        col = column(theta)
+        g = self.w * col
+        rg = g - q @ (q.T @ g)
+        a = float(rg @ ry) / float(rg @ rg)
+        # the fixed columns' coefficients: least squares of what the column leaves
+        c_fixed = np.linalg.solve(rq, q.T @ (self.wy - a * g))
+        c = np.append(c_fixed, a)
+        curve = fixed @ c_fixed + a * col
+        res = self.wy - self.w * curve
+        chi2 = float(res @ res)
         p = fixed.shape[1] + 2
         return ModelFit(name=name, params=p, chi2=chi2, bic=chi2 + p * self.log_n,
-                        curve=basis @ c, theta=theta, coef=c, variant=variant)
+                        curve=curve, theta=theta, coef=c, variant=variant)
+
+
+class LegendreSeries:
+    """Weighted least-squares Legendre series of every degree up to ``top`` at once.
+
+    The Legendre basis on ``[-1, 1]`` is well conditioned on an even grid, so the
+    normal equations are safe; the Cholesky factor of their matrix holds the
+    factor of every leading block, so the residual of every degree is one
+    cumulative sum: ``chi2(d) = |w y|^2 - sum_{j <= d} z_j^2``, ``L z = V^T W^2 y``.
+    """
+
+    def __init__(self, x: np.ndarray, y: np.ndarray, w: np.ndarray, top: int) -> None:
+        u = 2.0 * (x - x[0]) / max(x[-1] - x[0], 1e-300) - 1.0
+        self.v = legendre.legvander(u, top)
+        a = self.v * w[:, None]
+        wy = w * y
+        self.chol = np.linalg.cholesky(a.T @ a)
+        self.z = np.linalg.solve(self.chol, a.T @ wy)
+        self.chi2 = np.maximum(float(wy @ wy) - np.cumsum(self.z * self.z), 0.0)
+
+    def coef(self, d: int) -> np.ndarray:
+        """Coefficients of the degree-``d`` fit."""
+        return np.linalg.solve(self.chol[: d + 1, : d + 1].T, self.z[: d + 1])
+
+    def curve(self, d: int) -> np.ndarray:
+        """Values of the degree-``d`` fit on the bins."""
+        return self.v[:, : d + 1] @ self.coef(d)
 
 
 def _expm1_over(k: float, x: np.ndarray) -> np.ndarray:
@@ -349,21 +384,16 @@ def fit_models(x: np.ndarray, y: np.ndarray, sigma: np.ndarray,
         low = f.profile("relaxation-low", lin, relax, r_lo, r_hi, sign=-1.0)
         if low is not None:
             out["relaxation-low"] = low
-    # catch-all: Legendre series on [-1, 1] over the window, degree by BIC. The first
-    # d + 1 columns of one QR span the series to degree d, so every degree is one sum.
-    u = 2.0 * (x - x[0]) / max(x[-1] - x[0], 1e-300) - 1.0
+    # catch-all: Legendre series over the window, degree by BIC
     top = min(MAX_POLY_DEGREE, x.size - 3)
     if top >= 2:
-        q, _ = np.linalg.qr(legendre.legvander(u, top) * f.w[:, None])
-        qy = q.T @ f.wy
-        chi2s = float(f.wy @ f.wy) - np.cumsum(qy * qy)
+        series = LegendreSeries(x, y, f.w, top)
+        chi2s = series.chi2
         degs = np.arange(2, top + 1)
         bics = chi2s[degs] + (degs + 1) * f.log_n
         d = int(degs[int(np.argmin(bics))])
-        curve = (q[:, :d + 1] @ qy[:d + 1]) / f.w
-        out["polynomial"] = ModelFit("polynomial", d + 1, float(max(chi2s[d], 0.0)),
-                                     float(bics[d - 2]), curve, None, qy[:d + 1],
-                                     variant=str(d))
+        out["polynomial"] = ModelFit("polynomial", d + 1, float(chi2s[d]), float(bics[d - 2]),
+                                     series.curve(d), None, series.coef(d), variant=str(d))
     return out
 
 
@@ -556,6 +586,14 @@ def diagnose(averaged: AveragedCycle, figures: Figures, noise: NoiseFloor,
     per_sample = se * se * cnt
     k = int(min(max(NOISE_SMOOTH_BINS, se.size // 20), se.size))
     se = np.sqrt(ndimage.uniform_filter1d(per_sample, k, mode="nearest") / cnt)
+    # Structure repeated in every cycle (a quantisation pattern locked to the sample
+    # clock) is not in the cycle-to-cycle spread; where the averaged curve scatters
+    # about its smoothed self more than the standard errors say, widen them to match.
+    se = se * max(1.0, _scatter_ratio(y, se))
+    # Noise correlated from bin to bin (a bandwidth limit, bins finer than the
+    # noise's correlation time) averages down more slowly than the chi-square
+    # assumes; widen the errors by the variance inflation seen at longer scales.
+    se = se * math.sqrt(_correlation_inflation(t / T, y, se))
     # a simulated, noise-free capture would give standard errors of zero
     se = np.maximum(se, 1e-8 * span)
     x = t / T
@@ -642,6 +680,51 @@ def diagnose(averaged: AveragedCycle, figures: Figures, noise: NoiseFloor,
                      explanation=explanation, next_checks=NEXT_CHECKS["unclassified"],
                      model_scores=scores, evidence=float(evidence),
                      unexplained_pct=100.0 * unexplained / span)
+
+
+def _scatter_ratio(y: np.ndarray, se: np.ndarray) -> float:
+    """RMS of (y - smoothed y) / se, corrected for what the smoothing absorbs.
+
+    For white noise of standard deviation se, the Savitzky-Golay residual has
+    variance ``se^2 (1 - sum(c^2))`` (c: the filter's coefficients), so the
+    ratio is 1.
+    """
+    n = y.size
+    w = smoothing_window(n)
+    if n < w or w <= SMOOTH_ORDER + 1:
+        return 1.0
+    hp = y - signal.savgol_filter(y, w, SMOOTH_ORDER, mode="interp")
+    keep = 1.0 - float(np.sum(signal.savgol_coeffs(w, SMOOTH_ORDER) ** 2))
+    return float(np.sqrt(np.mean((hp / se) ** 2) / max(keep, 1e-6)))
+
+
+def _correlation_inflation(x: np.ndarray, y: np.ndarray, se: np.ndarray) -> float:
+    """How much more the noise varies at longer scales than independent bins would.
+
+    The residual of a smooth catch-all fit (Legendre degree ``MAX_POLY_DEGREE``)
+    is normalised by ``se`` and averaged in blocks of 2, 4, 8... bins (up to
+    1/32 of the window); for independent noise ``m var(block mean) = 1``. The
+    largest such ratio (at least 1) is returned: the variance inflation factor
+    of correlated noise (the batch-means method).
+    """
+    n = y.size
+    if n < 64:
+        return 1.0
+    w = 1.0 / se
+    try:
+        fit = LegendreSeries(x, y, w, MAX_POLY_DEGREE).curve(MAX_POLY_DEGREE)
+    except np.linalg.LinAlgError:
+        return 1.0
+    z = (y - fit) * w
+    z = z / max(math.sqrt(1.0 - (MAX_POLY_DEGREE + 1) / n), 1e-3)
+    best = 1.0
+    m = 2
+    while m <= n // 32:
+        k = n // m
+        blocks = z[: k * m].reshape(k, m).mean(axis=1)
+        best = max(best, m * float(np.mean(blocks * blocks)))
+        m *= 2
+    return best
 
 
 def _bend(m: ModelFit | None, line: ModelFit) -> float:

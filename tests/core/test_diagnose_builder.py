@@ -15,8 +15,9 @@ import math
 
 import numpy as np
 import pytest
-from scipy import signal, stats
+from scipy import integrate, signal, stats
 
+from trueslope.core.capture import Capture
 from trueslope.core.fit import fit_line
 from trueslope.core.linearity import FLOOR_SIGMAS, SMOOTH_ORDER, smoothing_window
 from trueslope.core.results import AveragedCycle, Figures, NoiseFloor
@@ -75,6 +76,73 @@ def averaged_from_model(model, ramp_time_s, bins=1000, sigma_v=1e-3, trim=0.05, 
     return av, fig, noise
 
 
+def capture_from_cycles(cycles, dt, bits=None, noise_v=0.0, seed=0, phase_s=0.0,
+                        margin=0.1):
+    """A capture of consecutive ramps with an instant reset between them.
+
+    ``cycles`` is a list of ``(duration_s, f)`` with ``f(t)`` the ramp voltage at
+    ``t`` seconds from that ramp's start (vectorised). Gaussian noise, then an
+    ADC of ``bits`` over the signal's range widened by ``margin`` at each end
+    (as a scope with the trace filling most of the screen).
+    """
+    starts = np.concatenate(([0.0], np.cumsum([d for d, _ in cycles])))
+    n = int(math.floor((starts[-1] - phase_s) / dt))
+    t = phase_s + dt * np.arange(n)
+    k = np.clip(np.searchsorted(starts, t, side="right") - 1, 0, len(cycles) - 1)
+    v = np.empty(n)
+    for i, (_, f) in enumerate(cycles):
+        m = k == i
+        if np.any(m):
+            v[m] = f(t[m] - starts[i])
+    rng = np.random.default_rng(seed)
+    lo, hi = float(v.min()), float(v.max())
+    if noise_v:
+        v = v + rng.normal(0.0, noise_v, n)
+    if bits:
+        span = hi - lo
+        lo, hi = lo - margin * span, hi + margin * span
+        q = (hi - lo) / 2 ** bits
+        v = lo + np.clip(np.round((v - lo) / q), 0, 2 ** bits - 1) * q
+    return Capture(source="model.csv", channels={"CH1": v}, sample_interval_s=dt)
+
+
+def dow_cycles(current_a, c_f, branches, v_lo, v_hi, warmup=20, keep=12):
+    """Ramps of a current into C with Dow-model R-C branches across it, by scipy solve_ivp.
+
+    ``branches`` is a list of ``(r_ohm, c_f)``. Each ramp runs from ``v_lo`` until
+    the main voltage reaches ``v_hi``; the reset then empties the main
+    capacitance instantly and leaves the branches' charge as it was (a fast
+    switch against the branches' series resistances). Returns the last ``keep``
+    cycles as ``(duration_s, f)`` after ``warmup`` cycles of settling.
+    Circuit equations: ``C dv/dt = I - sum (v - u_i) / R_i``,
+    ``C_i du_i/dt = (v - u_i) / R_i``.
+    """
+    r = np.array([b[0] for b in branches], dtype=float)
+    cb = np.array([b[1] for b in branches], dtype=float)
+
+    def rhs(_t, y):
+        v, u = y[0], y[1:]
+        ib = (v - u) / r
+        return np.concatenate(([(current_a - ib.sum()) / c_f], ib / cb))
+
+    def top(_t, y):
+        return y[0] - v_hi
+    top.terminal = True
+    top.direction = 1.0
+    u = np.full(r.size, v_lo)
+    horizon = 10.0 * c_f * (v_hi - v_lo) / current_a
+    out = []
+    for i in range(warmup + keep):
+        sol = integrate.solve_ivp(rhs, (0.0, horizon), np.concatenate(([v_lo], u)),
+                                  method="DOP853", events=top, dense_output=True,
+                                  rtol=1e-10, atol=1e-13)
+        t_end = float(sol.t_events[0][0])
+        u = sol.sol(t_end)[1:]
+        if i >= warmup:
+            out.append((t_end, (lambda s: (lambda t: s(t)[0]))(sol.sol)))
+    return out
+
+
 def _ramp(t):
     return 0.1 + 4000.0 * t
 
@@ -94,3 +162,21 @@ def test_builder_floor_tracks_the_noise():
     assert f2.nonlinearity_floor_pct == pytest.approx(4 * f1.nonlinearity_floor_pct, rel=1e-3)
     # a straight ramp's smoothed residual stays below its own floor (4 sigma; numpy's normal)
     assert f1.nonlinearity_pct < f1.nonlinearity_floor_pct
+
+
+def test_dow_cycles_settle_to_the_slope_of_the_total_capacitance():
+    # closed form (circuit theory): once a fast branch (tau << ramp) follows the
+    # voltage, the slope is I / (C + C_b); checked late in the ramp
+    cyc = dow_cycles(100e-6, 10e-9, [(20e3, 1e-9)], 0.05, 4.0, warmup=5, keep=2)
+    T, f = cyc[-1]
+    t = np.linspace(0.8 * T, 0.95 * T, 50)
+    slope = np.polyfit(t, f(t), 1)[0]
+    assert slope == pytest.approx(100e-6 / 11e-9, rel=1e-3)
+
+
+def test_capture_from_cycles_quantises_to_the_stated_bits():
+    cap = capture_from_cycles([(1e-3, _ramp)] * 3, 1e-6, bits=8, noise_v=1e-3, seed=2)
+    v = cap.channels["CH1"]
+    steps = np.diff(np.unique(v))
+    assert np.unique(v).size <= 256
+    assert np.allclose(steps / steps.min(), np.round(steps / steps.min()))
