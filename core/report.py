@@ -51,6 +51,8 @@ FIGURE_DEFINITIONS: dict[str, str] = {
 def _fmt(value: Any, unit: str, digits: int = 4) -> str:
     if value is None or (isinstance(value, float) and not math.isfinite(value)):
         return "—"
+    if unit in ("%", "pct"):
+        return f"{float(value):.{min(digits, 3)}g} %"
     return format_si(float(value), unit, digits)
 
 
