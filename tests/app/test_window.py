@@ -366,3 +366,42 @@ def test_help_has_bench_safety(qtbot, window):
     titles = [a.text() for a in window.menuBar().actions()]
     help_menu = window.menuBar().actions()[titles.index("&Help")].menu()
     assert any("safety" in a.text().lower() for a in help_menu.actions())
+
+
+def test_a_channel_that_is_not_a_ramp_offers_the_others(qtbot, window, monkeypatch):
+    """Opening the film sample on its sync channel fails; "Choose channel…" measures the ramp."""
+    message = wait_failed(qtbot, window, lambda: window.open_file(str(FILM), channel="sync"))
+    assert "could not be measured" in message
+    assert window.banner.action.isVisible()
+    assert window.analysis is None
+    monkeypatch.setattr(QtWidgets.QInputDialog, "getItem",
+                        staticmethod(lambda *args, **kwargs: ("ramp", True)))
+    with qtbot.waitSignal(window.analysis_shown, timeout=60000) as blocker:
+        qtbot.mouseClick(window.banner.action, QtCore.Qt.MouseButton.LeftButton)
+    assert blocker.args[0].channel == "ramp"
+    assert window.path == str(FILM)
+    assert not window.banner.isVisible()
+
+
+def test_an_unexpected_worker_error_reaches_the_banner(qtbot, window, monkeypatch):
+    open_and_wait(qtbot, window, FILM)
+    import trueslope.core.analysis as analysis_module
+
+    def broken(*args, **kwargs):
+        raise RuntimeError("solder bridge in the engine")
+
+    monkeypatch.setattr(analysis_module, "analyse", broken)
+    message = wait_failed(qtbot, window, lambda: window.reanalyse("test", window_s=None))
+    assert "RuntimeError" in message and "solder bridge" in message
+    assert "previous result is still shown" in window.banner.text()
+    assert window.analysis is not None
+
+
+def test_changing_the_trim_measures_with_the_new_trim(qtbot, window):
+    a = open_and_wait(qtbot, window, FILM)
+    with qtbot.waitSignal(window.analysis_shown, timeout=60000) as blocker:
+        window.trim_box.setValue(15.0)
+    b = blocker.args[0]
+    assert b.figures.trim_fraction == pytest.approx(0.15)
+    assert b.averaged.window_start_s > a.averaged.window_start_s
+    assert window.figures.value_text("trim_fraction") == fmt.pct(15.0)
