@@ -490,6 +490,13 @@ class MainWindow(QtWidgets.QMainWindow):
         capture = capture if capture is not None else self.capture
         if capture is None:
             return
+        if isinstance(self.runner.current, OpenRequest) and capture is self.capture:
+            # A file is being opened: measuring the old one again would cancel it.
+            self._status(f"Still reading {Path(self.runner.current.path).name}; "
+                         "change the settings when it is open")
+            if self.analysis is not None:
+                self.plots.show_cycle(self.plots.shown)
+            return
         try:
             settings = self.settings.with_(**changes)
         except TrueslopeError as exc:

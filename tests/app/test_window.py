@@ -405,3 +405,39 @@ def test_changing_the_trim_measures_with_the_new_trim(qtbot, window):
     assert b.figures.trim_fraction == pytest.approx(0.15)
     assert b.averaged.window_start_s > a.averaged.window_start_s
     assert window.figures.value_text("trim_fraction") == fmt.pct(15.0)
+
+
+def test_help_dialogs_open(qtbot, window):
+    for action in (window.act_safety, window.act_keys, window.act_defs, window.act_about):
+        action.trigger()
+        boxes = [w for w in window.findChildren(QtWidgets.QMessageBox) if w.isVisible()]
+        assert boxes, action.text()
+        text = boxes[-1].text()
+        assert text
+        if action is window.act_safety:
+            assert "ground clip" in text
+        if action is window.act_defs:
+            assert "nonlinearity_pct" in text
+        boxes[-1].close()
+        boxes[-1].deleteLater()
+
+
+def test_moving_the_band_while_a_file_opens_does_not_cancel_the_open(qtbot, window, monkeypatch):
+    a = open_and_wait(qtbot, window, FILM)
+    import trueslope.core.io as io
+    real = io.load_capture
+    gate = threading.Event()
+
+    def gated(path, **kwargs):
+        gate.wait(10)
+        return real(path, **kwargs)
+
+    monkeypatch.setattr(io, "load_capture", gated)
+    got = []
+    window.analysis_shown.connect(got.append)
+    window.open_file(str(X7R))
+    window.reanalyse("window moved", window_s=(0.2 * a.averaged.ramp_time_s, 0.8 * a.averaged.ramp_time_s))
+    assert "Still reading" in window.status_label.text()
+    gate.set()
+    qtbot.waitUntil(lambda: bool(got), timeout=60000)
+    assert Path(got[0].source).name == X7R.name
