@@ -6,15 +6,21 @@ Layout accepted, top to bottom::
     [header]    one row of column names, optionally followed by a row of units
     data        rows of numbers, one sample per row, a fixed number of fields
 
-How the layout is found (the *sniff*, on the first 64 KiB): every candidate
+How the layout is found (the *sniff*, on the first 1000 lines): every candidate
 dialect (comma, semicolon, tab or runs of white space; decimal point, or
 decimal comma where the delimiter is not a comma) splits the lines, and the
 data block is the first run of at least 8 consecutive rows of numbers with the
-same field count. The dialect that explains the most rows wins; ties go to the
-one whose header has a name for every field, then to more fields, then to the
-order above. The non-blank line just before the data is the header when it
-splits into the same number of fields and none of them is a number; lines
-above it are the preamble.
+same field count. The dialect that explains the most rows (minus the rows it
+cannot explain) wins; ties go against a comma dialect whose fields look like
+"0,05" split in two (a decimal comma), then to the one whose header has a name
+for every field, then to more fields, then to the order above. The non-blank
+line just before the data is the header when it splits into the same number
+of fields and no name is a number or a ``key: value`` pair; a row of units
+under a row of names is merged into it. Lines above are the preamble.
+
+Known ambiguity: a single column of decimal-comma numbers with no header and
+no fraction starting with 0 reads as two integer columns; a header row
+settles it.
 
 Reading: the data bytes are memory-mapped (read-only) and parsed in blocks of
 a few MiB, by ``pyarrow.csv`` for single-character delimiters and by pandas'
@@ -280,7 +286,8 @@ def _head_lines(head: bytes, complete: bool, encoding: str, bom: int) -> list[tu
     return out
 
 
-def _sniff(lines: list[tuple[int, str]], encoding: str, path: str, whole: bool) -> _Sniff | None:
+def _sniff(lines: list[tuple[int, str]], encoding: str, whole: bool) -> _Sniff | None:
+    """Dialect, data start, header and preamble of the head lines; None if no data."""
     best = None
     for prio, (d, dec) in enumerate(_CANDIDATES):
         kinds = [_kind(text, d, dec) for _, text in lines]
@@ -604,9 +611,9 @@ def read_delimited(path: str, *, sample_interval_s: float | None = None,
         while True:
             whole = len(head) >= size
             lines = _head_lines(head, whole, encoding, bom)
-            sniff = _sniff(lines[:SNIFF_LINES], encoding, path, whole and len(lines) <= SNIFF_LINES)
+            sniff = _sniff(lines[:SNIFF_LINES], encoding, whole and len(lines) <= SNIFF_LINES)
             if sniff is None and len(lines) > SNIFF_LINES:
-                sniff = _sniff(lines, encoding, path, whole)
+                sniff = _sniff(lines, encoding, whole)
             if (sniff is not None and sniff.data_line < len(lines) - MIN_RUN) or whole \
                     or len(head) >= MAX_HEAD_BYTES:
                 break
@@ -621,6 +628,8 @@ def read_delimited(path: str, *, sample_interval_s: float | None = None,
         dia = sniff.dialect
         units = column_units(sniff.header or [""] * dia.fields, path, sniff.header_line)
         mm = mmap.mmap(f.fileno(), 0, access=mmap.ACCESS_READ)
+        if hasattr(mm, "madvise") and hasattr(mmap, "MADV_SEQUENTIAL"):
+            mm.madvise(mmap.MADV_SEQUENTIAL)  # read once, front to back: let the OS read ahead
         try:
             columns, warnings, blk = _read_data(mm, size, sniff, path, progress, cancel)
             for c, (_, _, scale) in zip(columns, units):
