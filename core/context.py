@@ -269,7 +269,7 @@ class CheckItem:
     expected, measured : float or None
         In SI units (``unit``); None where it cannot be worked out.
     unit : str
-        ``"V/s"``, ``"s"``, ``"Hz"``, ``"ohm"``, ``"%"``, ``"A"``, ``"F"``.
+        ``"V/s"``, ``"s"``, ``"Hz"``, ``"Ω"``, ``"%"``, ``"A"``, ``"F"``.
     verdict : str
         ``"within tolerance"``, ``"outside"`` or ``"not checked"``.
     deviation_pct : float or None
@@ -536,11 +536,11 @@ def check_context(figures: Figures, diagnosis: Any, context: CircuitContext) -> 
     elif C is not None:
         implied = slope_meas * C
         items.append(CheckItem("implied current", None, implied, "A", "not checked", None,
-                               "measured slope x stated capacitance (give --current to check)"))
+                               "measured slope × stated capacitance"))
     elif I is not None:
         implied = I / slope_meas if slope_meas > 0 else math.nan
         items.append(CheckItem("implied capacitance", None, implied, "F", "not checked", None,
-                               "stated current / measured slope (give --capacitance to check)"))
+                               "stated current / measured slope"))
 
     shunt = getattr(diagnosis, "equivalent_shunt_ohm", None)
     if shunt is None and C is not None and getattr(diagnosis, "signature", None) == \
@@ -548,12 +548,12 @@ def check_context(figures: Figures, diagnosis: Any, context: CircuitContext) -> 
         shunt = diagnosis.tau_s / C
     if R is not None or shunt is not None:
         items.append(_item(
-            "equivalent shunt", R, shunt, "ohm", shape_tol,
+            "equivalent shunt", R, shunt, "Ω", shape_tol,
             "another resistance is in parallel with the probe: the current source's output "
             "resistance, leakage across the capacitor, or a scope input",
             "the probe's resistance is higher than stated, or the bend has another cause"))
         if R is not None and shunt is None:
-            items[-1] = CheckItem("equivalent shunt", R, None, "ohm", "not checked", None,
+            items[-1] = CheckItem("equivalent shunt", R, None, "Ω", "not checked", None,
                                   "no shunt loading found in the ramp's shape")
 
     # nonlinearity the stated probe alone would cause, against the one measured
@@ -597,18 +597,27 @@ def _summary(items: list[CheckItem], match: str, probe_nl: float | None, nl_meas
     parts = []
     if checked:
         if out:
-            worst = max(out, key=lambda i: abs(i.deviation_pct or math.inf))
-            dev = (f" ({worst.deviation_pct:+.3g} %)" if worst.deviation_pct is not None
-                   else "")
+            def how(i: CheckItem) -> str:
+                if i.name == "nonlinearity" or i.deviation_pct is None:
+                    return (f"{i.name} ({i.measured:.2g} % measured against {i.expected:.2g} %)"
+                            if i.name == "nonlinearity" else i.name)
+                return f"{i.name} ({i.deviation_pct:+.3g} %)"
+            first = out[0]
             parts.append(f"{len(checked) - len(out)} of {len(checked)} figures agree with the "
-                         f"stated parts within {100 * tol:.3g} %; {worst.name} is off"
-                         f"{dev}: {worst.likely_cause}.")
+                         f"stated parts within {100 * tol:.3g} %; outside: "
+                         f"{', '.join(how(i) for i in out)}. Likely cause of the first: "
+                         f"{first.likely_cause}.")
         else:
             parts.append(f"All {len(checked)} figures agree with the stated parts within "
                          f"their tolerance.")
     else:
-        parts.append("Too little is stated to predict the ramp: give both the capacitance and "
-                     "the current (or the set resistor and the reference).")
+        implied = [i for i in items if i.name.startswith("implied") and i.measured is not None]
+        lead = ""
+        if implied:
+            i = implied[0]
+            lead = (f"The {i.name} is {format_si(i.measured, i.unit, 3)} ({i.likely_cause}). ")
+        parts.append(f"{lead}To check the ramp against the parts, give both the capacitance "
+                     f"and the current (or the set resistor and the reference).")
     if shunt is not None:
         parts.append(f"The equivalent shunt, {format_si(shunt, 'Ω', 3)}, looks like: {match}.")
     if probe_nl is not None:

@@ -48,6 +48,7 @@ best-fit line, as a multiple of ``noise.nonlinearity_floor_pct``.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from dataclasses import dataclass, field
 from typing import Any, Callable
@@ -183,6 +184,8 @@ class ModelFit:
     variant : str
         Which form of the model won (``"exp"`` or ``"sqrt"`` for the voltage
         coefficient, the degree for the polynomial).
+    rival_chi2 : float or None
+        chi2 of the other form, where a model has two.
     """
 
     name: str
@@ -193,6 +196,7 @@ class ModelFit:
     theta: float | None
     coef: np.ndarray
     variant: str = ""
+    rival_chi2: float | None = None
 
 
 class _Fitter:
@@ -369,7 +373,10 @@ def fit_models(x: np.ndarray, y: np.ndarray, sigma: np.ndarray,
                         g_hi, variant="sqrt")
     cands = [m for m in (vc_exp, vc_sqrt) if m is not None]
     if cands:
-        out["voltage-coefficient"] = min(cands, key=lambda m: m.chi2)
+        best = min(cands, key=lambda m: m.chi2)
+        rival = max(cands, key=lambda m: m.chi2) if len(cands) == 2 else None
+        out["voltage-coefficient"] = dataclasses.replace(
+            best, rival_chi2=None if rival is None else rival.chi2)
     # An early relaxation must still be visible at the window's start and must
     # not be finer than the bins.
     r_lo = max(x_start / 7.0, 2.0 * bin_width, 1e-4)
@@ -764,13 +771,16 @@ def _physical(win: ModelFit, x: np.ndarray, line: ModelFit, T: float,
             f"({tau / T:.3g} ramp times).{r_txt} The bow is {pct:.2g} % of the span.")
         curvature = "concave"
     elif name == "voltage-coefficient":
-        b = float(win.coef[1])
-        if win.variant == "exp":
-            vcoef = win.theta / b  # k / (s T), per volt
-            form = "a charging current growing with the voltage fits it as well"
+        # slope per volt at the ramp start: k / (s T) for the exponential form and
+        # g / (s T) for the square-root form, s T being the coefficient b
+        vcoef = win.theta / float(win.coef[1])
+        if win.rival_chi2 is not None and win.rival_chi2 - win.chi2 > BIC_MARGIN:
+            form = ("a charging current rising in proportion to the voltage fits better than "
+                    "a capacitance falling in proportion to it" if win.variant == "exp" else
+                    "a capacitance falling in proportion to the voltage fits better than a "
+                    "charging current rising in proportion to it")
         else:
-            vcoef = win.theta / b  # g / (s T), per volt
-            form = "a capacitance falling linearly with the voltage fits it"
+            form = "at this curvature the two cannot be told apart from the shape alone"
         explanation = (
             f"The slope rises as the voltage rises, by about {100 * vcoef:.2g} % per volt: the "
             f"capacitance falls with DC bias (class 2 ceramics do this), or the charge current "
@@ -782,13 +792,28 @@ def _physical(win: ModelFit, x: np.ndarray, line: ModelFit, T: float,
             f"The slope starts high after each reset and settles with a time constant of about "
             f"{_si(tau, 's')} ({100 * win.theta:.2g} % of the ramp), as charge soaks back into "
             f"the dielectric (dielectric absorption, the Dow model's series R-C branches). "
-            f"The bow is {pct:.2g} % of the span and changes with the repetition rate.")
+            f"The bow is {pct:.2g} % of the span; it would change with the repetition rate.")
         curvature = "concave"
     return Diagnosis(signature=name, strength=strength, strength_words=words,
                      curvature=curvature, tau_s=tau, equivalent_shunt_ohm=shunt,
-                     explanation=explanation, next_checks=NEXT_CHECKS[name],
+                     explanation=explanation, next_checks=_checks_for(name, shunt),
                      model_scores=scores, voltage_coefficient_per_v=vcoef,
                      evidence=float(evidence), unexplained_pct=100.0 * left_v / span)
+
+
+def _checks_for(name: str, shunt_ohm: float | None) -> tuple[str, ...]:
+    """The bench steps of a signature; for shunt loading, what the resistance found resembles."""
+    checks = NEXT_CHECKS[name]
+    if name != "shunt-loading" or shunt_ohm is None:
+        return checks
+    from .context import probe_match
+    match = probe_match(shunt_ohm)
+    if match == "neither":
+        verdict = ("neither a 10x probe (about 10 Mohm) nor a 1x probe or scope input (about "
+                   "1 Mohm): look for leakage or the current source's output resistance first")
+    else:
+        verdict = f"that is what a {match} presents: lift or change the probe to confirm"
+    return checks[:-1] + (f"The equivalent shunt is {_si(shunt_ohm, 'Ω')}; {verdict}.",)
 
 
 def _not_measurable(n: int, why: str | None = None) -> Diagnosis:
