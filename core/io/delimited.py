@@ -619,6 +619,10 @@ def read_delimited(path: str, *, sample_interval_s: float | None = None,
                 break
             head += f.read(MAX_HEAD_BYTES - len(head))
         if sniff is None:
+            if not lines:
+                raise CaptureFormatError(
+                    f"no line end in the first {len(head) // 1024} KiB: this is not a text "
+                    f"capture of rows of numbers", path)
             raise EmptyCaptureError(
                 f"no rows of numbers found in the first {len(lines)} lines; expected rows of "
                 f"numbers separated by commas, semicolons, tabs or spaces, after an optional "
@@ -701,8 +705,8 @@ def _read_data(mm: mmap.mmap, size: int, sniff: _Sniff, path: str,
             for p in parts:
                 p[j] = None  # type: ignore[call-overload]  # free block memory as we go
     if rows == 0:
-        what = f"a header on line {sniff.header_line} but" if sniff.header_line else ""
-        raise EmptyCaptureError(f"found {what} no rows of numbers to read", path)
+        what = f" a header on line {sniff.header_line} but" if sniff.header_line else ""
+        raise EmptyCaptureError(f"found{what} no rows of numbers to read", path)
     return columns, warnings, blk
 
 
