@@ -352,3 +352,17 @@ def test_mangled_files_raise_only_family_errors(tmp_path):
             load_capture(p, sample_interval_s=1e-6)
         except E.TrueslopeError as exc:
             assert p.name in str(exc)
+
+
+def test_megabyte_without_a_line_end(tmp_path):
+    p = write(tmp_path, "oneline.csv", ",".join(str(i) for i in range(300_000)))
+    raises(E.CaptureFormatError, p, "no line end")
+
+
+def test_error_messages_name_the_file_only_by_its_name(tmp_path):
+    # The message stays short: the file's name, not its whole folder path.
+    p = write(tmp_path, "few.csv", PRE + "".join(data_rows(5)))
+    with pytest.raises(E.TooFewSamplesError) as info:
+        load_capture(p)
+    assert str(info.value).startswith("few.csv: ")
+    assert info.value.path == str(p)
