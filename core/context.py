@@ -25,13 +25,16 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
 from .errors import SettingsError
 from .results import Figures, _plain
 from .units import format_si, parse_si
+
+if TYPE_CHECKING:  # diagnose imports this module
+    from .diagnose import Diagnosis
 
 #: Default tolerance of the stated part values, fraction.
 DEFAULT_TOLERANCE = 0.10
@@ -474,7 +477,8 @@ def _nl_cause(diagnosis: Any, probe_r: float | None) -> str:
     return "the bow has a cause other than the stated parts"
 
 
-def check_context(figures: Figures, diagnosis: Any, context: CircuitContext) -> ContextCheck:
+def check_context(figures: Figures, diagnosis: Diagnosis | None,
+                  context: CircuitContext) -> ContextCheck:
     """Put what the stated parts predict beside what was measured.
 
     Parameters

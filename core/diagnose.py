@@ -30,20 +30,31 @@ squares (variable projection), so the fit is a bounded one-dimensional
 search (:func:`scipy.optimize.minimize_scalar`) started from the best point
 of a logarithmic grid, which cannot fail to converge.
 
+The noise in the criterion is the bins' standard errors, made robust three
+ways before the fit: each bin's variance is averaged with its neighbours'
+(a spread from a dozen cycles is itself noisy); the errors are widened when
+the averaged curve scatters about its smoothed self more than they say
+(structure repeated in every cycle); and they are widened by the variance
+inflation of noise correlated from bin to bin (batch means of the catch-all's
+residual). Each widening only ever makes a curve harder to claim.
+
 The decision, in order:
 
 1. ``linear`` unless some curved model beats the line by more than
    :data:`BIC_MARGIN` ("strong" evidence on the Kass and Raftery scale) *and*
-   bends further from the line than the capture's resolution floor.
-2. Otherwise the physical model with the lowest BIC among those that
-   *explain* the shape: the systematic residual they leave is below the
-   resolution floor, or below :data:`ADEQUATE_FRACTION` of the bow.
-3. ``unclassified`` when none does (or when the best curved model is an early
-   relaxation with the slope starting *low*, which no listed cause gives); the
-   shape is then described in words.
+   the chosen model bends further from the line than the capture's
+   resolution floor (``noise.nonlinearity_floor_pct``).
+2. Otherwise the model with the lowest BIC among those that *explain* the
+   shape: the data hardly prefer the catch-all to it (BIC within
+   :data:`BIC_MARGIN`), or what it leaves of the catch-all's curve is below
+   the resolution floor or below :data:`ADEQUATE_FRACTION` of the bow.
+3. ``unclassified`` when none does, or when the model chosen is the early
+   relaxation with the slope starting *low* (no listed cause gives that; an
+   under-compensated probe does); the shape is then described in words.
 
-``strength`` is the peak deviation of the best curved model from the
-best-fit line, as a multiple of ``noise.nonlinearity_floor_pct``.
+``strength`` is the peak deviation of the chosen model (the catch-all for
+``unclassified``) from the best-fit line, as a multiple of the resolution
+floor.
 """
 
 from __future__ import annotations
@@ -57,6 +68,7 @@ import numpy as np
 from numpy.polynomial import legendre
 from scipy import ndimage, optimize, signal
 
+from .context import CircuitContext, probe_match
 from .linearity import SMOOTH_ORDER, smoothing_window
 from .results import AveragedCycle, Figures, NoiseFloor, _plain
 from .units import format_si
@@ -542,7 +554,7 @@ def _curvature_of(fit: ModelFit | None, x: np.ndarray, line: np.ndarray, floor_v
 
 
 def diagnose(averaged: AveragedCycle, figures: Figures, noise: NoiseFloor,
-             context: Any = None) -> Diagnosis:
+             context: CircuitContext | None = None) -> Diagnosis:
     """Classify the systematic residual of the averaged cycle by its physical cause.
 
     Parameters
@@ -743,7 +755,7 @@ def _bend(m: ModelFit | None, line: ModelFit) -> float:
     return float(np.max(np.abs(m.curve - line.curve))) if m is not None else 0.0
 
 
-def _context_capacitance(context: Any) -> float | None:
+def _context_capacitance(context: CircuitContext | None) -> float | None:
     if context is None:
         return None
     c = getattr(context, "effective_capacitance_f", None)
@@ -806,7 +818,6 @@ def _checks_for(name: str, shunt_ohm: float | None) -> tuple[str, ...]:
     checks = NEXT_CHECKS[name]
     if name != "shunt-loading" or shunt_ohm is None:
         return checks
-    from .context import probe_match
     match = probe_match(shunt_ohm)
     if match == "neither":
         verdict = ("neither a 10x probe (about 10 Mohm) nor a 1x probe or scope input (about "
