@@ -444,7 +444,7 @@ def _slope_causes(diagnosis: Any, cap_given: bool, probe_c_given: bool) -> tuple
     low = ["the capacitance is above its marked value"]
     if not probe_c_given:
         low.insert(0, "capacitance in parallel that is not stated (probe, cable, board: "
-                      "give the probe's with --probe R,C)")
+                      "state the probe's R and C in the circuit context)")
     low.append("the current is below the stated value (the current source running out of "
                "headroom, set resistor high, reference low)")
     if sig == "shunt-loading":

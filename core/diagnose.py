@@ -462,7 +462,7 @@ NEXT_CHECKS: dict[str, tuple[str, ...]] = {
         "the ramp) and look for leakage across the capacitor (flux residue, a damp board, a "
         "leaky electrolytic).",
         "Compare the equivalent shunt with 10 Mohm (10x probe) and 1 Mohm (1x probe or scope "
-        "input): pass --capacitance and --probe for this check.",
+        "input): give the timing capacitance and the probe in the circuit context for this check.",
     ),
     "voltage-coefficient": (
         "Swap the timing capacitor for a C0G/NP0 ceramic or a polypropylene film part of the "

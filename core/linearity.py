@@ -291,8 +291,13 @@ def average_cycle(acc: dict[str, np.ndarray], ramp_time_s: float, trim: float,
     # repeats in every cycle (quantisation patterns, sampling-clock beats) is not in
     # them. Scale them up so the smoothed model's scatter is consistent with them.
     point_sd_random = float(np.sqrt(np.mean(stderr[inw] ** 2)))
-    hp_ratio = float(np.sqrt(np.mean(((rw - sm) / stderr[inw]) ** 2)
-                             * W / max(W - SMOOTH_ORDER - 1, 1)))
+    # Bins whose samples agree across cycles (a whole number of samples per period, little
+    # noise against the ADC step) get a near-zero spread; floor them at a fraction of the
+    # typical bin before comparing, and compare by the median so a few such bins cannot
+    # blow the ratio up (the median of a chi-square with one degree of freedom is 0.455).
+    stderr = np.maximum(stderr, 0.5 * float(np.median(stderr[inw])))
+    z2 = ((rw - sm) / stderr[inw]) ** 2
+    hp_ratio = float(np.sqrt(np.median(z2) / 0.455 * W / max(W - SMOOTH_ORDER - 1, 1)))
     if hp_ratio > 1.0:
         stderr = stderr * hp_ratio
     d_a, d_b = _end_derivatives(tw, rw, stderr[inw], fit.slope_v_per_s)
