@@ -37,6 +37,9 @@ def build_parser() -> argparse.ArgumentParser:
     g.add_argument("--reference", help="reference voltage across the set resistor, e.g. 1.25")
     g.add_argument("--probe", help="probe loading as R,C, e.g. 10M,12p")
     g.add_argument("--tolerance", help="tolerance of the expected figures, e.g. 10%%")
+    g.add_argument("--thresholds", metavar="LOW,HIGH",
+                   help="the comparator's reset and trip levels, e.g. 0.05,4 "
+                        "(default: the measured start and end levels)")
     return p
 
 
@@ -54,11 +57,13 @@ def _settings(args: argparse.Namespace) -> tuple[Settings, float | None]:
         kw["channel"] = int(args.channel) if args.channel.isdigit() else args.channel
     if args.sync_channel is not None:
         kw["sync_channel"] = int(args.sync_channel) if args.sync_channel.isdigit() else args.sync_channel
-    if any(getattr(args, k) for k in ("capacitance", "current", "set_resistor", "reference", "probe", "tolerance")):
+    if any(getattr(args, k) for k in ("capacitance", "current", "set_resistor", "reference", "probe", "tolerance",
+                                        "thresholds")):
         from .context import parse_context
         kw["context"] = parse_context(capacitance=args.capacitance, current=args.current,
                                       set_resistor=args.set_resistor, reference=args.reference,
-                                      probe=args.probe, tolerance=args.tolerance)
+                                      probe=args.probe, tolerance=args.tolerance,
+                                      thresholds=args.thresholds)
     dt = parse_si(args.sample_interval, "s") if args.sample_interval else None
     return Settings(**kw), dt
 

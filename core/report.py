@@ -107,7 +107,9 @@ def findings_lines(a: Analysis) -> list[str]:
         tau = f", tau {_fmt(d.tau_s, 's', 3)}" if getattr(d, "tau_s", None) else ""
         shunt = (f", equivalent shunt {_fmt(d.equivalent_shunt_ohm, 'Ω', 3)}"
                  if getattr(d, "equivalent_shunt_ohm", None) else "")
-        out.append(f"  diagnosis      {d.signature} ({d.curvature}; {d.strength_words}{tau}{shunt})")
+        vc = getattr(d, "voltage_coefficient_per_v", None)
+        vc_txt = f", slope changes {100 * vc:+.3g} % per volt" if vc else ""
+        out.append(f"  diagnosis      {d.signature} ({d.curvature}; {d.strength_words}{tau}{shunt}{vc_txt})")
         out.append(f"                 {d.explanation}")
         for step in d.next_checks:
             out.append(f"    - {step}")
@@ -116,7 +118,10 @@ def findings_lines(a: Analysis) -> list[str]:
         out.append("  self-check")
         for it in c.items:
             if it.expected is None or it.measured is None:
-                out.append(f"    {it.name}: {it.verdict}")
+                known = it.measured if it.measured is not None else it.expected
+                value = f" {_fmt(known, it.unit)}" if known is not None else ""
+                note = f" — {it.likely_cause}" if it.likely_cause else ""
+                out.append(f"    {it.name}:{value} ({it.verdict}){note}")
                 continue
             dev = "" if it.deviation_pct is None else f" ({it.deviation_pct:+.3g} %)"
             line = (f"    {it.name}: expected {_fmt(it.expected, it.unit)}, measured "
