@@ -19,6 +19,19 @@ import numpy as np
 FIXTURES = Path(__file__).resolve().parent / "fixtures" / "spice"
 
 
+def run_ngspice(netlist: str, folder: Path, name: str = "live") -> tuple[np.ndarray, np.ndarray]:
+    """Run a netlist in ngspice (batch mode) in ``folder``; its ``.control`` block must
+    ``wrdata ramp.txt v(ramp)``. Returns time and ramp voltage on ngspice's grid."""
+    import subprocess
+    (folder / f"{name}.cir").write_text(netlist)
+    proc = subprocess.run(["ngspice", "-b", f"{name}.cir"], cwd=folder, capture_output=True,
+                          text=True, timeout=120)
+    if proc.returncode != 0:
+        raise RuntimeError(proc.stdout + proc.stderr)
+    data = np.loadtxt(folder / "ramp.txt")
+    return data[:, 0], data[:, 1]
+
+
 def list_cases() -> list[str]:
     """Names of the stored cases, sorted."""
     return sorted(p.stem for p in FIXTURES.glob("*.npz"))

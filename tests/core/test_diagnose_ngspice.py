@@ -12,12 +12,11 @@ is not on PATH; about 3 s when it is.
 from __future__ import annotations
 
 import shutil
-import subprocess
 
 import numpy as np
 import pytest
 
-from spice_cases import quantise
+from spice_cases import quantise, run_ngspice
 from trueslope.core.analysis import analyse
 from trueslope.core.capture import Capture
 from trueslope.core.settings import Settings
@@ -47,12 +46,7 @@ quit 0
 
 @pytest.mark.skipif(shutil.which("ngspice") is None, reason="ngspice is not installed")
 def test_live_ngspice_dow_branch_is_dielectric_absorption(tmp_path):
-    (tmp_path / "dow.cir").write_text(NETLIST)
-    proc = subprocess.run(["ngspice", "-b", "dow.cir"], cwd=tmp_path, capture_output=True,
-                          text=True, timeout=120)
-    assert proc.returncode == 0, proc.stdout + proc.stderr
-    data = np.loadtxt(tmp_path / "ramp.txt")
-    t, v = data[:, 0], data[:, 1]
+    t, v = run_ngspice(NETLIST, tmp_path, "dow")
     dt = (t[-1] - t[0]) / (t.size - 1)
     x = quantise(v, 10, (-0.4, 4.5), noise_v=1e-3, seed=17)
     cap = Capture(source="dow.cir", channels={"CH1": x}, sample_interval_s=dt, t0_s=t[0])

@@ -8,11 +8,11 @@ Skipped when ``ngspice`` (Debian package) is not on PATH.
 from __future__ import annotations
 
 import shutil
-import subprocess
 
 import numpy as np
 import pytest
 
+from spice_cases import run_ngspice
 from trueslope.core.analysis import analyse
 from trueslope.core.capture import Capture
 from trueslope.core.settings import Settings
@@ -42,12 +42,7 @@ quit 0
 
 @pytest.mark.skipif(shutil.which("ngspice") is None, reason="ngspice is not installed")
 def test_slope_of_a_live_ngspice_ramp_matches_i_over_c(tmp_path):
-    (tmp_path / "live.cir").write_text(NETLIST)
-    proc = subprocess.run(["ngspice", "-b", "live.cir"], cwd=tmp_path, capture_output=True,
-                          text=True, timeout=120)
-    assert proc.returncode == 0, proc.stdout + proc.stderr
-    data = np.loadtxt(tmp_path / "ramp.txt")
-    t, v = data[:, 0], data[:, 1]
+    t, v = run_ngspice(NETLIST, tmp_path, "live")
     dt = (t[-1] - t[0]) / (t.size - 1)
     cap = Capture(source="live.cir", channels={"CH1": v}, sample_interval_s=dt, t0_s=t[0])
     f = analyse(cap, Settings()).figures
