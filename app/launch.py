@@ -82,6 +82,13 @@ def launch(path: str | None = None, channel: str | None = None, sync_channel: st
         return 2
     if screenshot and _headless() and not os.environ.get("QT_QPA_PLATFORM"):
         os.environ["QT_QPA_PLATFORM"] = "offscreen"
+    if not screenshot and _headless() and not os.environ.get("QT_QPA_PLATFORM"):
+        # Qt would abort on a missing display; say what to do instead
+        print("trueslope open: no display found (neither DISPLAY nor WAYLAND_DISPLAY is set): "
+              "the window needs a desktop session. In a terminal, use "
+              f"'trueslope analyze {path or 'FILE'}', or '--screenshot OUT.png' for a picture.",
+              file=sys.stderr)
+        return 2
 
     app = make_app()
     from .store import Store

@@ -34,8 +34,13 @@ setup_venv() {
     fi
     local stamp=.venv/.trueslope-installed
     if [ ! -f "$stamp" ] || [ pyproject.toml -nt "$stamp" ]; then
-        .venv/bin/python -m pip install -q --upgrade pip >/dev/null
-        .venv/bin/python -m pip install -q -e ".[test]"
+        echo "installing trueslope and its dependencies into .venv (log: .venv/install.log)" >&2
+        if ! { .venv/bin/python -m pip install --upgrade pip &&
+               .venv/bin/python -m pip install -e ".[test]"; } >.venv/install.log 2>&1; then
+            tail -n 30 .venv/install.log >&2
+            echo "installation failed; the whole log is in .venv/install.log" >&2
+            exit 1
+        fi
         touch "$stamp"
     fi
 }
@@ -46,7 +51,13 @@ case "$cmd" in
         need_debs
         setup_venv
         if [ "$#" -eq 0 ]; then
-            set -- open sample_captures/film_cap_ramp.csv
+            if [ "$(uname)" = Linux ] && [ -z "${DISPLAY:-}${WAYLAND_DISPLAY:-}" ]; then
+                echo "no display here: showing the terminal analysis of the sample instead" \
+                     "(on a desktop this command opens the window)" >&2
+                set -- analyze sample_captures/film_cap_ramp.csv
+            else
+                set -- open sample_captures/film_cap_ramp.csv
+            fi
         fi
         exec .venv/bin/trueslope "$@"
         ;;
