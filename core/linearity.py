@@ -415,8 +415,9 @@ def build_cycles(cyc: _CycleArrays, seg: Segmentation, sign: float) -> tuple[Cyc
     period = seg.period_s
     retrace = seg.retrace_time_s
     tq = stats.t.ppf(0.975, np.maximum(cyc.dof, 1))
-    nl = 100.0 * cyc.peak / np.abs(cyc.span)
-    tnl = 100.0 * cyc.terminal_peak / np.abs(cyc.terminal_span)
+    with np.errstate(divide="ignore", invalid="ignore"):  # a flat cycle has no span: NaN
+        nl = 100.0 * cyc.peak / np.abs(cyc.span)
+        tnl = 100.0 * cyc.terminal_peak / np.abs(cyc.terminal_span)
     # floors: 0.2 % of slope or ramp time, 0.05 percentage points (+10 %) of nonlinearity
     out_flag = robust_outliers([(cyc.slope, 2e-3, 0.0), (cyc.ramp_time_s, 2e-3, 0.0),
                                 (nl, 0.1, 0.05)])
