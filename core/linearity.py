@@ -144,9 +144,12 @@ def cycle_pass(x: np.ndarray, dt: float, t0: float, seg: Segmentation, trim: flo
         m = xs.size
         kk = np.arange(m, dtype=float)
         # prefix sums: any sum over a contiguous range is a difference of two entries
-        cy = np.concatenate(([0.0], np.cumsum(xs)))
-        cky = np.concatenate(([0.0], np.cumsum(kk * xs)))
-        cyy = np.concatenate(([0.0], np.cumsum(xs * xs)))
+        cy = np.zeros(m + 1)
+        cky = np.zeros(m + 1)
+        cyy = np.zeros(m + 1)
+        np.cumsum(xs, out=cy[1:])
+        np.cumsum(kk * xs, out=cky[1:])
+        np.cumsum(xs * xs, out=cyy[1:])
         a_ = w0[sl] - base
         b_ = w1[sl] - base
         L = (b_ - a_).astype(float)
@@ -164,8 +167,9 @@ def cycle_pass(x: np.ndarray, dt: float, t0: float, seg: Segmentation, trim: flo
         starts = r0[sl] - base
         lens = np.diff(np.append(starts, m))
         cid = np.repeat(np.arange(c1 - c0), lens)
-        line = ybar[cid] + bk[cid] * (kk - kbar[cid])
-        r = xs - line
+        bk_s = bk[cid]
+        r = xs - (ybar - bk * kbar)[cid]
+        r -= bk_s * kk
         absr = np.empty(m + 1)
         np.abs(r, out=absr[:m])
         absr[m] = 0.0
@@ -180,7 +184,9 @@ def cycle_pass(x: np.ndarray, dt: float, t0: float, seg: Segmentation, trim: flo
         ty = (cy[b_] - cy[b_ - h]) / h
         tk = b_ - 1 - 0.5 * (h - 1)
         bt = (ty - hy) / np.where(tk != hk, tk - hk, np.inf)
-        rt = xs - (hy[cid] + bt[cid] * (kk - hk[cid]))
+        # the terminal residual is the best-fit one plus the gap between the two lines
+        rt = r + (ybar - bk * kbar - (hy - bt * hk))[cid]
+        rt += (bk - bt)[cid] * kk
         np.abs(rt, out=absr[:m])
         out["tpeak"][sl] = np.maximum.reduceat(absr, inter)[0::2]
         out["tspan"][sl] = bt * (wb[sl] - wa[sl]) / dt
@@ -201,11 +207,12 @@ def cycle_pass(x: np.ndarray, dt: float, t0: float, seg: Segmentation, trim: flo
         out["nwin"][sl] = L
         # phase-binned accumulation of every ramp sample; retrace samples go to a spare bin
         inv = 1.0 / (T[sl] / dt)
-        u = (kk - s0[cid]) * inv[cid]
+        u = kk * inv[cid]
+        u -= (s0 * inv)[cid]
         bi = (u * bins).astype(np.int64)
-        on_ramp = kk < (e1[cid])
-        bi[~on_ramp | (bi < 0)] = bins
-        np.minimum(bi, bins, out=bi)
+        np.minimum(bi, bins - 1, out=bi)
+        # past its ramp's end (u > 1) a sample belongs to the retrace: the spare bin
+        bi[u > 1.0] = bins
         acc["n"] += np.bincount(bi, minlength=bins + 1)
         acc["u"] += np.bincount(bi, u, bins + 1)
         acc["y"] += np.bincount(bi, xs, bins + 1)
