@@ -46,6 +46,64 @@ def _crossings_down(x: np.ndarray, level: float) -> np.ndarray:
     return np.flatnonzero(b[1:] & ~b[:-1]) + 1
 
 
+def _crossings_up(x: np.ndarray, level: float) -> tuple[np.ndarray, np.ndarray]:
+    """Every upward crossing of ``level``: index i of the first sample above, and the
+    fractional index where the segment (i-1, i) crosses."""
+    b = x > level
+    i = np.flatnonzero(b[1:] & ~b[:-1]) + 1
+    a, c = x[i - 1], x[i]
+    den = np.where(c != a, c - a, 1.0)
+    return i, (i - 1) + np.clip((level - a) / den, 0.0, 1.0)
+
+
+def _first_up_after(x: np.ndarray, level: float, t: np.ndarray) -> np.ndarray:
+    i, f = _crossings_up(x, level)
+    if i.size == 0:
+        return np.full(t.shape, np.nan)
+    j = np.searchsorted(i, t, side="left")
+    return np.where(j < i.size, f[np.minimum(j, i.size - 1)], np.nan)
+
+
+def _last_up_before(x: np.ndarray, level: float, t: np.ndarray) -> np.ndarray:
+    i, f = _crossings_up(x, level)
+    if i.size == 0:
+        return np.full(t.shape, np.nan)
+    j = np.searchsorted(i, t, side="right") - 1
+    return np.where(j >= 0, f[np.maximum(j, 0)], np.nan)
+
+
+def _dwell_margin(period_samples: float) -> float:
+    """How far a boundary must move to count: more than 3 samples and 1 % of the period,
+    so noise and the gentle curvature of a loaded ramp never move one."""
+    return max(3.0, 0.01 * period_samples)
+
+
+def _skip_low_dwell(x: np.ndarray, lo: float, span: float, start: np.ndarray,
+                    limit: np.ndarray, period_samples: float) -> np.ndarray:
+    """Ramp starts moved past a dwell at the low level.
+
+    Where the ramp's 10 % and 30 % upward crossings, extrapolated along the ramp to
+    the low level, lie well after the end of the retrace, the signal sat at the
+    bottom first (a reset held by a one-shot, say): the ramp starts there instead.
+    """
+    t10 = _first_up_after(x, lo + 0.1 * span, start)
+    t30 = _first_up_after(x, lo + 0.3 * span, start)
+    t0 = t10 - 0.5 * (t30 - t10)
+    ok = np.isfinite(t0) & (t30 < limit) & (t0 - start > _dwell_margin(period_samples))
+    return np.where(ok, t0, start)
+
+
+def _cut_high_plateau(x: np.ndarray, lo: float, span: float, end: np.ndarray,
+                      limit: np.ndarray, period_samples: float) -> np.ndarray:
+    """Ramp ends moved before a plateau at the high level (clipping, a current source
+    out of headroom): the 70 % and 90 % upward crossings extrapolated to the high level."""
+    t90 = _last_up_before(x, lo + 0.9 * span, end)
+    t70 = _last_up_before(x, lo + 0.7 * span, end)
+    t100 = t90 + 0.5 * (t90 - t70)
+    ok = np.isfinite(t100) & (t70 > limit) & (end - t100 > _dwell_margin(period_samples))
+    return np.where(ok, t100, end)
+
+
 def _interp_crossing(x: np.ndarray, i: np.ndarray, level: float) -> np.ndarray:
     """Fractional sample index where the segment (i-1, i) crosses ``level``."""
     a = x[i - 1]
@@ -237,9 +295,13 @@ def segment(v: np.ndarray, sample_interval_s: float, t0_s: float = 0.0,
 
     dt = sample_interval_s
     reset_t = t0_s + reset_idx * dt
-    ramp_start = t0_s + trough[:-1] * dt
-    ramp_end = t0_s + peak[1:] * dt
-    retrace_end = t0_s + trough[1:] * dt
+    period_samples = float(np.median(np.diff(reset_idx)))
+    # a dwell after the reset belongs to the retrace, a plateau before it too
+    starts = _skip_low_dwell(x, lo_m, span, trough, np.append(peak[1:], n), period_samples)
+    ends = _cut_high_plateau(x, lo_m, span, peak[1:], starts[:-1], period_samples)
+    ramp_start = t0_s + starts[:-1] * dt
+    ramp_end = t0_s + ends * dt
+    retrace_end = t0_s + starts[1:] * dt
     good = ramp_end > ramp_start
     if not np.any(good):
         raise NoFullCycleError("no full ramp between two reset edges")
@@ -308,9 +370,11 @@ def _segment_with_sync(x: np.ndarray, s: np.ndarray, dt: float, t0: float,
     peak = np.where(ok, t90 - ext, peak)
     trough = np.where(ok, t10 + ext, trough)
     trough = np.maximum(trough, peak + 1e-3)
-    ramp_start = t0 + trough[:-1] * dt
-    ramp_end = t0 + peak[1:] * dt
-    retrace_end = t0 + trough[1:] * dt
+    starts = _skip_low_dwell(xm, lo_m, span, trough, np.append(peak[1:], n), float(period))
+    ends = _cut_high_plateau(xm, lo_m, span, peak[1:], starts[:-1], float(period))
+    ramp_start = t0 + starts[:-1] * dt
+    ramp_end = t0 + ends * dt
+    retrace_end = t0 + starts[1:] * dt
     good = ramp_end > ramp_start
     return Segmentation(
         direction=direction, levels=levels, reset_times_s=t0 + reset_idx * dt,

@@ -97,3 +97,22 @@ def test_default_channel_is_the_first_holding_a_sawtooth():
     from trueslope.core.capture import Capture
     cap2 = Capture(source="two.csv", channels=ordered, sample_interval_s=1e-6)
     assert analyse(cap2).channel == "CH1"
+
+
+def _held_ramp(u):
+    # 8 % of each period held at the bottom after the reset, 5 % clipped at the top
+    # before it; straight 0.5 V -> 4.5 V in between
+    r = np.clip((u - 0.08) / 0.87, 0.0, 1.0)
+    return 0.5 + 4.0 * r
+
+
+def test_dwell_after_reset_and_plateau_before_it_are_not_ramp():
+    spr = 1000
+    cap = sawtooth(_held_ramp, cycles=10, samples_per_ramp=spr, noise_v=2e-3, seed=4)
+    f = analyse(cap, Settings()).figures
+    assert f.ramp_time_s == pytest.approx(0.87 * spr * 1e-6, abs=3e-6)  # 3 samples
+    assert f.retrace_time_s == pytest.approx(0.13 * spr * 1e-6, abs=3e-6)
+    assert f.slope_v_per_s == pytest.approx(4.0 / (0.87 * spr * 1e-6), rel=2e-3)
+    assert f.start_v == pytest.approx(0.5, abs=0.02)
+    assert f.end_v == pytest.approx(4.5, abs=0.02)
+    assert f.nonlinearity_pct < 0.1
