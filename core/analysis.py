@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from pathlib import Path
 
@@ -103,13 +104,27 @@ def analyse(capture: Capture, settings: Settings | None = None,
             f"shortest ramp ({np.min(ramp_T):.4g} s)")
     bins = phase_bins_for(T_mean / dt, settings)
     cyc, acc = cycle_pass(x, dt, t0, seg, settings.trim_fraction, settings.window_s, bins,
-                          progress=lambda f: report(0.15 + 0.75 * f), cancel=cancel)
+                          progress=lambda f: report(0.15 + 0.7 * f), cancel=cancel)
+    cycles = build_cycles(cyc, seg, sign)
+    keep = ~np.array([c.outlier for c in cycles], dtype=bool)
+    n_out = int(np.count_nonzero(~keep))
+    if n_out and np.count_nonzero(keep) >= 2:
+        # an outlying cycle (a false trigger, a glitch) would bend the coherent average:
+        # average the others; every cycle stays in the cycle list, marked
+        sub = dataclasses.replace(seg, ramp_start_s=seg.ramp_start_s[keep],
+                                  ramp_end_s=seg.ramp_end_s[keep],
+                                  retrace_end_s=seg.retrace_end_s[keep])
+        T_mean = float(np.mean(sub.ramp_time_s))
+        cyc_avg, acc = cycle_pass(x, dt, t0, sub, settings.trim_fraction, settings.window_s,
+                                  bins, progress=lambda f: report(0.85 + 0.05 * f), cancel=cancel)
+    else:
+        keep = np.ones(len(cycles), dtype=bool)
+        cyc_avg = cyc
     step = adc_step(v)
     res = average_cycle(acc, T_mean, settings.trim_fraction, settings.window_s, mirrored,
                         estimate_noise_rms(x), step)
     av, noise = res.averaged, res.noise
     fit = av.fit
-    cycles = build_cycles(cyc, seg, sign)
 
     # sweep errors on the smoothed averaged curve over the window (measurement frame)
     tw, curve = res.t_win, res.smooth_v
@@ -137,7 +152,7 @@ def analyse(capture: Capture, settings: Settings | None = None,
     peak = float(np.nanmax(np.abs(av.smoothed_residual_v[av.in_window])))
     nl = 100.0 * peak / fitted_span if fitted_span > 0 else math.nan
     start_m, end_m = end_levels(av)
-    lo_ci, hi_ci = slope_ci(fit, cyc.slope)
+    lo_ci, hi_ci = slope_ci(fit, cyc_avg.slope)
     slope_true = sign * fit.slope_v_per_s
     ci = tuple(sorted((sign * lo_ci, sign * hi_ci)))
     resets = seg.reset_times_s
@@ -153,15 +168,17 @@ def analyse(capture: Capture, settings: Settings | None = None,
     if seg.full_cycles < 3:
         warnings.append(TrueslopeWarning(
             "few-cycles", f"only {seg.full_cycles} full cycle(s): figures rest on little data"))
-    n_out = sum(c.outlier for c in cycles)
     if n_out:
+        left_out = (" and are left out of the averaged figures"
+                    if np.count_nonzero(keep) < len(cycles) else "")
         warnings.append(TrueslopeWarning(
-            "outlying-cycles", f"{n_out} cycle(s) differ markedly from the rest (marked in the cycle list)"))
+            "outlying-cycles", f"{n_out} cycle(s) differ markedly from the rest (marked in "
+                               f"the cycle list){left_out}"))
 
     figures = Figures(
         direction=seg.direction, full_cycles=seg.full_cycles, partial_cycles=seg.partial_cycles,
         frequency_hz=1.0 / period, period_s=period, period_jitter_s=jitter,
-        ramp_time_s=T_mean, retrace_time_s=float(np.mean(seg.retrace_time_s)),
+        ramp_time_s=T_mean, retrace_time_s=float(np.mean(seg.retrace_time_s[keep])),
         offset_v=sign * fit.intercept_v, start_v=sign * start_m, end_v=sign * end_m,
         amplitude_v=abs(end_m - start_m), slope_v_per_s=slope_true,
         slope_ci95_v_per_s=(float(ci[0]), float(ci[1])),
@@ -170,7 +187,7 @@ def analyse(capture: Capture, settings: Settings | None = None,
         slope_error_pct=100.0 * e_s, displacement_error_pct=100.0 * e_d,
         transmission_error_pct=100.0 * e_t,
         midpoint_time_error_s=mid_err, midpoint_time_error_pct=100.0 * mid_err / T_mean,
-        residual_rms_v=float(math.sqrt(np.sum(cyc.ssr) / np.sum(cyc.n_win))),
+        residual_rms_v=float(math.sqrt(np.sum(cyc_avg.ssr) / np.sum(cyc_avg.n_win))),
         noise_rms_v=noise.noise_rms_v, adc_step_v=noise.adc_step_v,
         nonlinearity_floor_pct=noise.nonlinearity_floor_pct, below_floor=below,
         trim_fraction=settings.trim_fraction, window_start_s=av.window_start_s,

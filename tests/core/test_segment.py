@@ -116,3 +116,23 @@ def test_dwell_after_reset_and_plateau_before_it_are_not_ramp():
     assert f.start_v == pytest.approx(0.5, abs=0.02)
     assert f.end_v == pytest.approx(4.5, abs=0.02)
     assert f.nonlinearity_pct < 0.1
+
+
+def test_a_broken_cycle_is_marked_and_left_out_of_the_average():
+    # a glitch drops the sixth ramp back to the bottom at half height (below the upper
+    # threshold, so not a reset): one long broken cycle among straight ones
+    spr = 1000
+    base = sawtooth(straight(0.2, 4.2), cycles=12, samples_per_ramp=spr, noise_v=1e-3, seed=2)
+    v = base.channels["CH1"].copy()
+    k = 5 * spr + spr // 2  # halfway up the sixth ramp
+    v[k:k + spr] = 0.2 + 4.0 * np.arange(spr) / spr + np.random.default_rng(0).normal(0, 1e-3, spr)
+    from trueslope.core.capture import Capture
+    cap = Capture(source="glitch.csv", channels={"CH1": v[: 12 * spr]}, sample_interval_s=1e-6)
+    a = analyse(cap, Settings())
+    flagged = [c.index for c in a.cycles if c.outlier]
+    assert len(flagged) == 1
+    f = a.figures
+    assert f.slope_v_per_s == pytest.approx(4.0 / 1e-3, rel=2e-3)
+    assert f.ramp_time_s == pytest.approx(1e-3, abs=3e-6)
+    assert f.nonlinearity_pct < 0.1
+    assert any(w.code == "outlying-cycles" and "left out" in w.message for w in a.warnings)
