@@ -62,6 +62,16 @@ def _pct(value: float | None, digits: int = 3) -> str:
     return f"{value:.{digits}g} %"
 
 
+def _jitter(jitter_s: float, dt_s: float) -> str:
+    """Period jitter with its size in sample intervals (edges are timed to a fraction of one)."""
+    if not math.isfinite(jitter_s):
+        return "—"
+    samples = jitter_s / dt_s
+    if samples < 1e-4:
+        return "none measurable (< 0.0001 sample)"
+    return f"{_fmt(jitter_s, 's', 3)} RMS ({samples:.2g} sample{'s' if samples > 1 else ''})"
+
+
 def summary_lines(a: Analysis) -> list[str]:
     """The readable summary of one analysis, as lines of text."""
     f = a.figures
@@ -73,7 +83,7 @@ def summary_lines(a: Analysis) -> list[str]:
         f"  {f.direction} sawtooth, {f.full_cycles} full cycles ({f.partial_cycles} partial left out)"
         + (" — segmented from the sync channel" if a.segmentation.source == "sync" else ""),
         f"  frequency      {_fmt(f.frequency_hz, 'Hz', 6)}   period {_fmt(f.period_s, 's', 6)}"
-        f"   jitter {_fmt(f.period_jitter_s, 's', 3)} RMS",
+        f"   jitter {_jitter(f.period_jitter_s, a.sample_interval_s)}",
         f"  ramp time      {_fmt(f.ramp_time_s, 's')}   retrace {_fmt(f.retrace_time_s, 's', 3)}",
         f"  slope          {_fmt(f.slope_v_per_s, 'V/s', 5)} ± {_fmt(half, 'V/s', 2)} (95 %)",
         f"  offset         {_fmt(f.offset_v, 'V')}   start {_fmt(f.start_v, 'V')}   end {_fmt(f.end_v, 'V')}"
