@@ -19,6 +19,27 @@ import numpy as np
 FIXTURES = Path(__file__).resolve().parent / "fixtures" / "spice"
 
 
+def live_netlist(title: str, elements: str, tran: str) -> str:
+    """A ramp netlist for the live tests: ``elements`` (node ``ramp``) reset by a hysteretic
+    switch from 4 V to 0.05 V through 10 ohm, a ``.tran`` line, and a control block that
+    writes the ramp on a uniform grid to ``ramp.txt``."""
+    return f"""* {title}
+{elements.strip()}
+S1 ramp 0 ramp 0 reset
+.model reset sw vt=2.025 vh=1.975 ron=10 roff=1e15
+.options reltol=1e-6 abstol=1e-15 vntol=1e-9 method=trap
+{tran}
+.control
+run
+linearize v(ramp)
+option numdgt=12
+wrdata ramp.txt v(ramp)
+quit 0
+.endc
+.end
+"""
+
+
 def run_ngspice(netlist: str, folder: Path, name: str = "live") -> tuple[np.ndarray, np.ndarray]:
     """Run a netlist in ngspice (batch mode) in ``folder``; its ``.control`` block must
     ``wrdata ramp.txt v(ramp)``. Returns time and ramp voltage on ngspice's grid."""

@@ -16,7 +16,7 @@ import shutil
 import numpy as np
 import pytest
 
-from spice_cases import quantise, run_ngspice
+from spice_cases import live_netlist, quantise, run_ngspice
 from trueslope.core.analysis import analyse
 from trueslope.core.capture import Capture
 from trueslope.core.settings import Settings
@@ -24,24 +24,13 @@ from trueslope.core.settings import Settings
 I_A, C_F, R_B, C_B = 100e-6, 10e-9, 200e3, 200e-12
 TAU_S = R_B * C_F * C_B / (C_F + C_B)
 
-NETLIST = f"""* live check: one Dow-model absorption branch across the timing capacitor
-I1 0 ramp DC {I_A:g}
+NETLIST = live_netlist(
+    "live check: one Dow-model absorption branch across the timing capacitor",
+    f"""I1 0 ramp DC {I_A:g}
 C1 ramp 0 {C_F:g} IC=0
 RB ramp b {R_B:g}
-CB b 0 {C_B:g} IC=0
-S1 ramp 0 ramp 0 reset
-.model reset sw vt=2.025 vh=1.975 ron=10 roff=1e15
-.options reltol=1e-6 abstol=1e-15 vntol=1e-9 method=trap
-.tran 200n 6.4m 1.2m 20n uic
-.control
-run
-linearize v(ramp)
-option numdgt=12
-wrdata ramp.txt v(ramp)
-quit 0
-.endc
-.end
-"""
+CB b 0 {C_B:g} IC=0""",
+    ".tran 200n 6.4m 1.2m 20n uic")
 
 
 @pytest.mark.skipif(shutil.which("ngspice") is None, reason="ngspice is not installed")

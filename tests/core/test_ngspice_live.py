@@ -12,7 +12,7 @@ import shutil
 import numpy as np
 import pytest
 
-from spice_cases import run_ngspice
+from spice_cases import live_netlist, run_ngspice
 from trueslope.core.analysis import analyse
 from trueslope.core.capture import Capture
 from trueslope.core.settings import Settings
@@ -22,22 +22,10 @@ C_F = 10e-9
 
 # A current source charging a capacitor; a hysteretic voltage-controlled
 # switch (the comparator) resets it from 4 V to 0.05 V through 10 ohm.
-NETLIST = f"""* live check: constant-current ramp
-I1 0 ramp DC {I_A:g}
-C1 ramp 0 {C_F:g} IC=0
-S1 ramp 0 ramp 0 reset
-.model reset sw vt=2.025 vh=1.975 ron=10 roff=1e15
-.options reltol=1e-6 abstol=1e-15 vntol=1e-9 method=trap
-.tran 200n 5.6m 0.4m 20n uic
-.control
-run
-linearize v(ramp)
-option numdgt=12
-wrdata ramp.txt v(ramp)
-quit 0
-.endc
-.end
-"""
+NETLIST = live_netlist("live check: constant-current ramp",
+                       f"""I1 0 ramp DC {I_A:g}
+C1 ramp 0 {C_F:g} IC=0""",
+                       ".tran 200n 5.6m 0.4m 20n uic")
 
 
 @pytest.mark.skipif(shutil.which("ngspice") is None, reason="ngspice is not installed")
