@@ -71,8 +71,3 @@ def terminal_line(t_a: float, v_a: float, t_b: float, v_b: float) -> tuple[float
         raise AnalysisError("terminal line needs two distinct end times")
     b = (v_b - v_a) / (t_b - t_a)
     return b, v_a - b * t_a
-
-
-def segment_sums(values: np.ndarray, cid: np.ndarray, n: int) -> np.ndarray:
-    """Sum of ``values`` per segment id (``numpy.bincount`` with weights)."""
-    return np.bincount(cid, weights=values, minlength=n)

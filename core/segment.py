@@ -40,12 +40,6 @@ def estimate_noise_rms(x: np.ndarray) -> float:
     return float(1.4826 * np.median(np.abs(d - med)) / np.sqrt(2.0))
 
 
-def _crossings_down(x: np.ndarray, level: float) -> np.ndarray:
-    """Index i of every sample with x[i-1] >= level > x[i]."""
-    b = x < level
-    return np.flatnonzero(b[1:] & ~b[:-1]) + 1
-
-
 def _crossings_up(x: np.ndarray, level: float) -> tuple[np.ndarray, np.ndarray]:
     """Every upward crossing of ``level``: index i of the first sample above, and the
     fractional index where the segment (i-1, i) crosses."""
@@ -250,10 +244,10 @@ def segment(v: np.ndarray, sample_interval_s: float, t0_s: float = 0.0,
     if direction == "falling":
         # measure on the mirror image, where the ramp rises and resets downwards
         x = -x
-        lo_m, hi_m = -hi, -lo
-        lower_m = lo_m + LOWER_THRESHOLD_FRACTION * span
-        upper_m = lo_m + UPPER_THRESHOLD_FRACTION * span
-        up_end, up_start, down_end, down_start = _transitions(x, lower_m, upper_m)
+        lo_m = -hi
+        # the thresholds are symmetric (30 % / 70 %), so the mirror's transitions are the
+        # original ones with rise and fall swapped
+        up_end, up_start, down_end, down_start = down_end, down_start, up_end, up_start
     else:
         lo_m = lo
     mid = lo_m + 0.5 * span
