@@ -11,12 +11,19 @@ from typing import Any, Callable, Mapping
 
 import numpy as np
 
-from .errors import ChannelNotFoundError, TrueslopeWarning
+from .errors import Cancelled, ChannelNotFoundError, TrueslopeWarning
 
 #: Signature of progress callbacks: called with a fraction in [0, 1].
 ProgressFn = Callable[[float], None]
 #: Signature of cancel flags: return True to stop the work.
 CancelFn = Callable[[], bool]
+
+
+def stop_if_cancelled(cancel: CancelFn | None, what: str = "analysis") -> None:
+    """The one cancel convention of core: the caller's flag returns True, core raises
+    :class:`~trueslope.core.errors.Cancelled` between blocks of work."""
+    if cancel is not None and cancel():
+        raise Cancelled(f"{what} cancelled")
 
 
 @dataclass(frozen=True)

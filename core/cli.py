@@ -9,7 +9,7 @@ import argparse
 import sys
 from pathlib import Path
 
-from .errors import TrueslopeError
+from .errors import NoSampleIntervalError, SettingsError, TrueslopeError
 from .settings import Settings
 
 
@@ -43,28 +43,58 @@ def build_parser() -> argparse.ArgumentParser:
     return p
 
 
+#: The option each settings field is typed into; core's errors name the field.
+OPTION_OF_FIELD = {"capacitance": "--capacitance", "current": "--current",
+                   "set_resistor": "--set-resistor", "reference": "--reference",
+                   "probe": "--probe", "tolerance": "--tolerance", "thresholds": "--thresholds",
+                   "trim": "--trim", "window": "--window", "sample_interval": "--sample-interval",
+                   "phase_bins": "phase bins"}
+
+
+def error_line(exc: TrueslopeError) -> str:
+    """A core error as the command line words it: the option named for a setting, and
+    the option to use when the sample interval is missing."""
+    if isinstance(exc, SettingsError) and exc.field:
+        return f"{OPTION_OF_FIELD.get(exc.field, exc.field)}: {exc.message}"
+    if isinstance(exc, NoSampleIntervalError):
+        return f"{exc} (--sample-interval)"
+    return str(exc)
+
+
+def _channel(text: str) -> int | str:
+    """A channel by 0-based index (ASCII digits only) or by name."""
+    return int(text) if text.isascii() and text.isdigit() else text
+
+
 def _settings(args: argparse.Namespace) -> tuple[Settings, float | None]:
     from .units import parse_si
+
+    def si(field: str, text: str, unit: str) -> float:
+        try:
+            return parse_si(text, unit)
+        except SettingsError as exc:
+            raise SettingsError(exc.message, field) from None
+
     kw: dict = {}
     if args.trim is not None:
         kw["trim_fraction"] = args.trim
     if args.window:
         parts = args.window.split(",")
         if len(parts) != 2:
-            raise TrueslopeError(f"--window expects START,END in seconds, got {args.window!r}")
-        kw["window_s"] = (parse_si(parts[0], "s"), parse_si(parts[1], "s"))
+            raise SettingsError(f"expects START,END in seconds, got {args.window!r}", "window")
+        kw["window_s"] = (si("window", parts[0], "s"), si("window", parts[1], "s"))
     if args.channel is not None:
-        kw["channel"] = int(args.channel) if args.channel.isdigit() else args.channel
+        kw["channel"] = _channel(args.channel)
     if args.sync_channel is not None:
-        kw["sync_channel"] = int(args.sync_channel) if args.sync_channel.isdigit() else args.sync_channel
+        kw["sync_channel"] = _channel(args.sync_channel)
     if any(getattr(args, k) for k in ("capacitance", "current", "set_resistor", "reference", "probe", "tolerance",
                                         "thresholds")):
-        from .context import parse_context
+        from .circuit import parse_context
         kw["context"] = parse_context(capacitance=args.capacitance, current=args.current,
                                       set_resistor=args.set_resistor, reference=args.reference,
                                       probe=args.probe, tolerance=args.tolerance,
                                       thresholds=args.thresholds)
-    dt = parse_si(args.sample_interval, "s") if args.sample_interval else None
+    dt = si("sample_interval", args.sample_interval, "s") if args.sample_interval else None
     return Settings(**kw), dt
 
 
@@ -79,7 +109,7 @@ def main(argv: list[str] | None = None) -> int:
         for f in args.files:
             results.append(analyse_file(f, settings, sample_interval_s=dt))
     except TrueslopeError as exc:
-        print(f"trueslope: {exc}", file=sys.stderr)
+        print(f"trueslope: {error_line(exc)}", file=sys.stderr)
         return 2
     except OSError as exc:
         print(f"trueslope: cannot read {exc.filename or ''}: {exc.strerror or exc}", file=sys.stderr)

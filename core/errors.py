@@ -107,11 +107,55 @@ class NoFullCycleError(AnalysisError):
 
 
 class SettingsError(TrueslopeError, ValueError):
-    """A setting is out of its allowed range or cannot be parsed."""
+    """A setting is out of its allowed range or cannot be parsed.
+
+    Parameters
+    ----------
+    message : str
+        What was wrong and what was expected, without naming where it was typed.
+    field : str, optional
+        The setting it is about, by its field name in :class:`~trueslope.core.settings.Settings`
+        or :class:`~trueslope.core.circuit.CircuitContext` (``"capacitance"``, ``"probe"``,
+        ``"trim"``, ``"window"``...). The command line prefixes its option name, the
+        window its form label; core never names either.
+    """
+
+    def __init__(self, message: str, field: str | None = None) -> None:
+        self.message = message
+        self.field = field
+        super().__init__(message)
 
 
 class Cancelled(TrueslopeError):
     """The caller's cancel flag was raised; the work stopped cleanly."""
+
+
+#: Every warning code trueslope attaches to a result, with what it means. A
+#: warning with a code not listed here is a programming error.
+WARNING_CODES: dict[str, str] = {
+    # reading the file
+    "header-mismatch": "the header names a different number of columns from the data rows",
+    "truncated-last-line": "the last line was cut short (a capture still being written?) and "
+                           "was dropped",
+    "unreadable-interval": "the preamble states a sample interval or rate that cannot be read",
+    "empty-column": "a column holds no numbers and was left out",
+    "extra-time-column": "a second column in units of time is not the time axis and was "
+                         "left out",
+    "non-uniform-time": "the time column is not evenly spaced; a uniform grid from its first "
+                        "and last times is used",
+    "interval-overridden": "the sample interval given replaces the one the preamble states",
+    "interval-ignored": "the sample interval given is not used: the file's time axis or "
+                        "rate gives it",
+    "non-numeric-field": "a field of a structured .npy array is not numeric and was left out",
+    "integer-samples": "the samples are integers, taken as volts unscaled",
+    "wav-uncalibrated": "WAV samples are in full-scale units, not volts",
+    "wav-reader": "the WAV reader reported something unusual about the file",
+    # measuring
+    "below-resolution": "the nonlinearity is below what the capture can resolve",
+    "few-cycles": "fewer than three full cycles: figures rest on little data",
+    "outlying-cycles": "some cycles differ markedly from the rest and are left out of the "
+                       "averaged figures",
+}
 
 
 @dataclass(frozen=True)
@@ -128,6 +172,10 @@ class TrueslopeWarning:
 
     code: str
     message: str
+
+    def __post_init__(self) -> None:
+        if self.code not in WARNING_CODES:
+            raise KeyError(f"warning code {self.code!r} is not in errors.WARNING_CODES")
 
     def __str__(self) -> str:
         return self.message

@@ -6,44 +6,18 @@ carry ``_pct`` in their name.
 
 from __future__ import annotations
 
-import math
-from dataclasses import dataclass, field, fields
+from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
 
 from .errors import TrueslopeWarning
-
-
-def _plain(value: Any) -> Any:
-    """Convert numpy scalars/arrays, tuples and NaN to plain JSON types."""
-    if isinstance(value, np.ndarray):
-        return [_plain(v) for v in value.tolist()]
-    if isinstance(value, (np.floating, float)):
-        f = float(value)
-        return None if not math.isfinite(f) else f
-    if isinstance(value, (np.integer,)):
-        return int(value)
-    if isinstance(value, (np.bool_,)):
-        return bool(value)
-    if isinstance(value, (list, tuple)):
-        return [_plain(v) for v in value]
-    if isinstance(value, dict):
-        return {str(k): _plain(v) for k, v in value.items()}
-    if isinstance(value, TrueslopeWarning):
-        return str(value)
-    if hasattr(value, "to_dict"):
-        return value.to_dict()
-    return value
-
-
-class _ToDict:
-    def to_dict(self) -> dict[str, Any]:
-        return {f.name: _plain(getattr(self, f.name)) for f in fields(self)}  # type: ignore[arg-type]
+from .jsonable import ToDict
+from .settings import Settings
 
 
 @dataclass(frozen=True)
-class LineFit(_ToDict):
+class LineFit(ToDict):
     """Least-squares straight line ``v = intercept_v + slope_v_per_s * t``.
 
     Attributes
@@ -74,7 +48,7 @@ class LineFit(_ToDict):
 
 
 @dataclass(frozen=True)
-class StateLevels(_ToDict):
+class StateLevels(ToDict):
     """Low and high state levels (IEEE Std 181 histogram method) and thresholds."""
 
     low_v: float
@@ -89,7 +63,7 @@ class StateLevels(_ToDict):
 
 
 @dataclass(frozen=True)
-class Segmentation(_ToDict):
+class Segmentation(ToDict):
     """Where the full cycles of a sawtooth lie in the record.
 
     Per-cycle arrays have one entry per full cycle; times are absolute, seconds.
@@ -136,7 +110,7 @@ class Segmentation(_ToDict):
 
 
 @dataclass(frozen=True)
-class CycleFigures(_ToDict):
+class CycleFigures(ToDict):
     """Figures of one full cycle, fitted alone (includes its noise)."""
 
     index: int
@@ -158,7 +132,7 @@ class CycleFigures(_ToDict):
 
 
 @dataclass(frozen=True)
-class AveragedCycle(_ToDict):
+class AveragedCycle(ToDict):
     """All full cycles averaged coherently, aligned on their reset edges.
 
     Points are phase bins of the ramp (ramp start = 0), placed in time by the
@@ -215,7 +189,7 @@ class AveragedCycle(_ToDict):
 
 
 @dataclass(frozen=True)
-class NoiseFloor(_ToDict):
+class NoiseFloor(ToDict):
     """What this capture can resolve.
 
     Attributes
@@ -227,7 +201,7 @@ class NoiseFloor(_ToDict):
     averaged_noise_rms_v : float
         Noise left on one point of the smoothed averaged residual.
     nonlinearity_floor_pct : float
-        Smallest nonlinearity this capture resolves (3 sigma of the smoothed
+        Smallest nonlinearity this capture resolves (4 sigma of the smoothed
         averaged residual, as % of the fitted span).
     """
 
@@ -238,7 +212,7 @@ class NoiseFloor(_ToDict):
 
 
 @dataclass(frozen=True)
-class Figures(_ToDict):
+class Figures(ToDict):
     """Summary figures of the capture, from the averaged cycle.
 
     See the README section "Measurement definitions" for every convention.
@@ -277,41 +251,302 @@ class Figures(_ToDict):
     fitted_span_v: float
 
 
+
+
+@dataclass(frozen=True)
+class CycleArrays:
+    """Per-cycle figures of the kernel pass, one array entry per full cycle.
+
+    Measurement frame (mirrored for a falling ramp); turned into
+    :class:`CycleFigures` in true polarity by ``linearity.build_cycles``.
+
+    Attributes
+    ----------
+    ramp_start_s, ramp_time_s : ndarray
+        Ramp start (absolute) and duration, seconds.
+    slope_v_per_s, intercept_v : ndarray
+        Least-squares line over the cycle's fit window; the intercept is the
+        line's value at the ramp start.
+    slope_stderr_v_per_s : ndarray
+        OLS standard error of the slope.
+    dof : ndarray
+        Degrees of freedom of the fit (samples in the window - 2).
+    peak_deviation_v, terminal_peak_v : ndarray
+        Largest |residual| against the best-fit and the terminal line.
+    fitted_span_v, terminal_span_v : ndarray
+        Rise of the best-fit and of the terminal line across the window.
+    start_v, end_v : ndarray
+        Levels where the ramp starts and ends (local means moved along the slope).
+    ssr_v2 : ndarray
+        Residual sum of squares about the best-fit line, volts squared.
+    window_samples : ndarray
+        Samples in the fit window.
+    """
+
+    ramp_start_s: np.ndarray
+    ramp_time_s: np.ndarray
+    slope_v_per_s: np.ndarray
+    intercept_v: np.ndarray
+    slope_stderr_v_per_s: np.ndarray
+    dof: np.ndarray
+    peak_deviation_v: np.ndarray
+    terminal_peak_v: np.ndarray
+    fitted_span_v: np.ndarray
+    terminal_span_v: np.ndarray
+    start_v: np.ndarray
+    end_v: np.ndarray
+    ssr_v2: np.ndarray
+    window_samples: np.ndarray
+
+
+@dataclass(frozen=True)
+class PhaseSums:
+    """Sums over every ramp sample, binned by phase ``u = (t - ramp start) / ramp time``.
+
+    One entry per phase bin; the kernel adds to them block by block.
+
+    Attributes
+    ----------
+    count : ndarray
+        Samples in the bin.
+    phase : ndarray
+        Sum of u.
+    voltage_v : ndarray
+        Sum of the samples (measurement frame).
+    residual_v : ndarray
+        Sum of the residuals about each sample's own cycle line.
+    residual_sq_v2 : ndarray
+        Sum of the squared residuals.
+    """
+
+    count: np.ndarray
+    phase: np.ndarray
+    voltage_v: np.ndarray
+    residual_v: np.ndarray
+    residual_sq_v2: np.ndarray
+
+
+@dataclass(frozen=True)
+class SweepErrors(ToDict):
+    """Sweep (time-base) errors of the smoothed averaged ramp over the fit window.
+
+    Definitions: SOURCES.md [sweep]; measurement frame.
+
+    Attributes
+    ----------
+    start_slope_v_per_s, end_slope_v_per_s : float
+        v'(a) and v'(b), the slope at the window's start and end.
+    slope_error_pct : float
+        ``100 (v'(a) - v'(b)) / v'(a)``.
+    displacement_error_pct : float
+        100 x the deviation from the chord at its largest / swing (positive
+        when the ramp bows above the chord).
+    transmission_error_pct : float
+        ``100 (v'(a) T - swing) / (v'(a) T)``.
+    midpoint_time_error_s : float
+        How late (+) the ramp crosses the window's mid level against the chord.
+    """
+
+    start_slope_v_per_s: float
+    end_slope_v_per_s: float
+    slope_error_pct: float
+    displacement_error_pct: float
+    transmission_error_pct: float
+    midpoint_time_error_s: float
+
+
+@dataclass(frozen=True)
+class ShapeDescription(ToDict):
+    """What an unexplained shape looks like, in numbers (the words are the report's).
+
+    Attributes
+    ----------
+    kind : str
+        ``"bow"`` (one bend), ``"s-bend"`` (the curvature changes sign) or ``"wavy"``.
+    bumps : int
+        For ``"wavy"``, about how many bumps.
+    peak_pct : float
+        Largest deviation from the best-fit line, % of the fitted span.
+    peak_at_fraction, steepest_at_fraction, flattest_at_fraction : float
+        Where along the ramp (0 = start, 1 = end) the deviation peaks, and the
+        slope is steepest and flattest.
+    peak_in_window_fraction : float
+        Where the peak lies within the fit window (0 = its start, 1 = its end).
+    """
+
+    kind: str
+    bumps: int
+    peak_pct: float
+    peak_at_fraction: float
+    steepest_at_fraction: float
+    flattest_at_fraction: float
+    peak_in_window_fraction: float
+
+
+@dataclass(frozen=True)
+class Diagnosis(ToDict):
+    """What the shape of the averaged ramp says about its cause: numbers and codes.
+
+    The explanation and bench steps are written by ``report`` from these fields.
+
+    Attributes
+    ----------
+    signature : str
+        ``"linear"``, ``"shunt-loading"``, ``"voltage-coefficient"``,
+        ``"dielectric-absorption"`` or ``"unclassified"``.
+    reason : str
+        Why that signature: for ``linear`` ``"no-clear-margin"`` or
+        ``"below-resolution"``; for ``unclassified`` ``"relaxation-low"``
+        (slope starting low), ``"no-model-fits"``, ``"not-measurable"`` or
+        ``"fit-failed"``; empty for a physical cause.
+    strength : float
+        Peak deviation of the chosen model from the best-fit line, as a
+        multiple of the resolution floor (below 1: not above the noise).
+    curvature : str
+        ``"concave"`` (slope falls along the ramp), ``"convex"`` or ``"none"``.
+    tau_s : float or None
+        Time constant: ``R C`` for shunt loading, the relaxation time for
+        dielectric absorption (and for a slope starting low), seconds.
+    tau_fraction : float or None
+        ``tau_s`` / mean ramp time.
+    equivalent_shunt_ohm : float or None
+        ``tau_s / (C + C_probe)`` for shunt loading when the capacitance is known.
+    probe_match : str
+        What that shunt looks like (:func:`trueslope.core.circuit.probe_match`).
+    voltage_coefficient_per_v : float or None
+        Fractional rise of the slope per volt at the ramp start, 1/V.
+    vc_form : str or None
+        For ``voltage-coefficient``: ``"exp"`` (current rising with V fits
+        better), ``"sqrt"`` (C falling with V fits better) or ``"undecided"``.
+    slope_change_pct : float or None
+        For shunt loading: how much the slope falls across the window, %.
+    bow_pct : float or None
+        The chosen model's largest distance from the line, % of the fitted span.
+    floor_pct : float
+        The resolution floor the decision used, % of the fitted span.
+    closest_cause : str or None
+        For ``linear`` and ``unclassified``: the physical model nearest the data.
+    closest_cause_pct : float or None
+        For ``linear``: how far that cause would bend the ramp; for
+        ``unclassified``: what it leaves unexplained; % of the span.
+    shape : ShapeDescription or None
+        For ``unclassified`` with no model: the shape in numbers.
+    window_points : int
+        Bins of the averaged cycle the models were fitted to.
+    model_scores : dict of str to float
+        BIC of every model tried (lower is better).
+    evidence : float
+        BIC of the line minus BIC of the best curved model.
+    unexplained_pct : float or None
+        Peak systematic residual left by the winning model, % of the span.
+    """
+
+    signature: str
+    reason: str
+    strength: float
+    curvature: str
+    tau_s: float | None = None
+    tau_fraction: float | None = None
+    equivalent_shunt_ohm: float | None = None
+    probe_match: str = "none"
+    voltage_coefficient_per_v: float | None = None
+    vc_form: str | None = None
+    slope_change_pct: float | None = None
+    bow_pct: float | None = None
+    floor_pct: float = float("nan")
+    closest_cause: str | None = None
+    closest_cause_pct: float | None = None
+    shape: ShapeDescription | None = None
+    window_points: int = 0
+    model_scores: dict[str, float] = field(default_factory=dict)
+    evidence: float = 0.0
+    unexplained_pct: float | None = None
+
+
+@dataclass(frozen=True)
+class CheckItem(ToDict):
+    """One figure the stated parts predict, beside the one measured.
+
+    Attributes
+    ----------
+    name : str
+        ``"slope"``, ``"ramp time"``, ``"period"``, ``"frequency"``,
+        ``"equivalent shunt"``, ``"nonlinearity"``, ``"implied current"`` or
+        ``"implied capacitance"``.
+    expected, measured : float or None
+        SI units (``unit``); None where it cannot be worked out.
+    unit : str
+        ``"V/s"``, ``"s"``, ``"Hz"``, ``"Ω"``, ``"%"``, ``"A"``, ``"F"``.
+    verdict : str
+        ``"within tolerance"``, ``"outside"`` or ``"not checked"``.
+    deviation_pct : float or None
+        ``100 (measured - expected) / expected``.
+    causes : tuple of str
+        Codes of the likely causes when outside (what it is, when not
+        checked); ``report`` words them.
+    """
+
+    name: str
+    expected: float | None
+    measured: float | None
+    unit: str
+    verdict: str
+    deviation_pct: float | None
+    causes: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True)
+class ContextCheck(ToDict):
+    """The self-check: the stated circuit against the capture.
+
+    Attributes
+    ----------
+    items : tuple of CheckItem
+    tolerance_frac : float
+        Tolerance of the stated values.
+    equivalent_shunt_ohm : float or None
+        The shunt found in the ramp's shape with the stated capacitance.
+    probe_match : str
+        What that shunt looks like (:func:`trueslope.core.circuit.probe_match`).
+    probe_predicted_nonlinearity_pct : float or None
+        Least-squares nonlinearity the stated probe alone would cause over the
+        fit window (None without a probe resistance and a capacitance).
+    measured_nonlinearity_pct : float
+    bow_resolved : bool
+        The measured nonlinearity is above the resolution floor.
+    probe_explains_bow : bool
+        A bow is resolved and the stated probe predicts it.
+    """
+
+    items: tuple[CheckItem, ...]
+    tolerance_frac: float
+    equivalent_shunt_ohm: float | None
+    probe_match: str
+    probe_predicted_nonlinearity_pct: float | None
+    measured_nonlinearity_pct: float
+    bow_resolved: bool
+    probe_explains_bow: bool
+
+
 @dataclass(frozen=True)
 class Analysis:
-    """Everything trueslope measured on one channel of one capture."""
+    """Everything trueslope measured on one channel of one capture.
+
+    ``report.analysis_document`` turns it into the JSON document of the
+    command line's ``--json`` and the window's JSON export.
+    """
 
     source: str
     channel: str
     samples: int
     sample_interval_s: float
-    settings: Any  # Settings
+    settings: Settings
     segmentation: Segmentation
     figures: Figures
     cycles: tuple[CycleFigures, ...]
     averaged: AveragedCycle
     noise: NoiseFloor
-    diagnosis: Any = None  # trueslope.core.diagnose.Diagnosis
-    context_check: Any = None  # trueslope.core.context.ContextCheck
+    diagnosis: Diagnosis
+    context_check: ContextCheck | None = None
     warnings: tuple[TrueslopeWarning, ...] = ()
     metadata: dict[str, str] = field(default_factory=dict)
-
-    def to_dict(self) -> dict[str, Any]:
-        """The flat JSON document of the command line's ``--json``."""
-        d: dict[str, Any] = {
-            "file": self.source,
-            "channel": self.channel,
-            "samples": self.samples,
-            "sample_interval_s": self.sample_interval_s,
-        }
-        d.update(self.figures.to_dict())
-        d["averaged_noise_rms_v"] = _plain(self.noise.averaged_noise_rms_v)
-        d["segmentation_source"] = self.segmentation.source
-        d["low_level_v"] = _plain(self.segmentation.levels.low_v)
-        d["high_level_v"] = _plain(self.segmentation.levels.high_v)
-        d["warnings"] = [str(w) for w in self.warnings]
-        d["metadata"] = dict(self.metadata)
-        d["diagnosis"] = None if self.diagnosis is None else self.diagnosis.to_dict()
-        d["context_check"] = None if self.context_check is None else self.context_check.to_dict()
-        d["cycles"] = [c.to_dict() for c in self.cycles]
-        return d

@@ -13,6 +13,7 @@ import numpy as np
 
 from .errors import NoFullCycleError, NotASawtoothError
 from .levels import ramp_extremes, state_levels
+from .noise import estimate_noise_rms
 from .results import Segmentation, StateLevels
 
 #: Hysteresis thresholds as fractions of the span between the ramp levels.
@@ -22,22 +23,16 @@ UPPER_THRESHOLD_FRACTION = 0.70
 MIN_EDGE_RATIO = 4.0
 
 
-def estimate_noise_rms(x: np.ndarray) -> float:
-    """Sample-to-sample noise, volts RMS, from the median absolute first difference.
+def interpolate_crossing(x: np.ndarray, i: np.ndarray, level: float) -> np.ndarray:
+    """Fractional sample index where the segment from ``i - 1`` to ``i`` crosses ``level``.
 
-    ``sigma = 1.4826 * MAD(diff(x)) / sqrt(2)``; the ramp's own slope and the
-    rare reset edges barely move a median.
+    Linear interpolation, ``(i - 1) + (level - x[i-1]) / (x[i] - x[i-1])``,
+    clipped to the segment; either direction of crossing.
     """
-    if x.size > 2_000_000:
-        # 40 evenly spread contiguous stretches: adjacent differences, a tenth of the work
-        starts = np.linspace(0, x.size - 50_001, 40).astype(np.int64)
-        d = np.concatenate([np.diff(x[s:s + 50_000]) for s in starts])
-    else:
-        d = np.diff(x)
-    if d.size == 0:
-        return 0.0
-    med = np.median(d)
-    return float(1.4826 * np.median(np.abs(d - med)) / np.sqrt(2.0))
+    a = x[i - 1]
+    b = x[i]
+    den = np.where(a != b, b - a, 1.0)
+    return (i - 1) + np.clip((level - a) / den, 0.0, 1.0)
 
 
 def _crossings_up(x: np.ndarray, level: float) -> tuple[np.ndarray, np.ndarray]:
@@ -45,9 +40,7 @@ def _crossings_up(x: np.ndarray, level: float) -> tuple[np.ndarray, np.ndarray]:
     fractional index where the segment (i-1, i) crosses."""
     b = x > level
     i = np.flatnonzero(b[1:] & ~b[:-1]) + 1
-    a, c = x[i - 1], x[i]
-    den = np.where(c != a, c - a, 1.0)
-    return i, (i - 1) + np.clip((level - a) / den, 0.0, 1.0)
+    return i, interpolate_crossing(x, i, level)
 
 
 def _first_up_after(x: np.ndarray, level: float, t: np.ndarray) -> np.ndarray:
@@ -96,14 +89,6 @@ def _cut_high_plateau(x: np.ndarray, lo: float, span: float, end: np.ndarray,
     t100 = t90 + 0.5 * (t90 - t70)
     ok = np.isfinite(t100) & (t70 > limit) & (end - t100 > _dwell_margin(period_samples))
     return np.where(ok, t100, end)
-
-
-def _interp_crossing(x: np.ndarray, i: np.ndarray, level: float) -> np.ndarray:
-    """Fractional sample index where the segment (i-1, i) crosses ``level``."""
-    a = x[i - 1]
-    b = x[i]
-    den = np.where(a != b, a - b, 1.0)
-    return (i - 1) + np.clip((a - level) / den, 0.0, 1.0)
 
 
 def _transitions(x: np.ndarray, lower: float, upper: float) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
@@ -164,7 +149,7 @@ def _local_crossing(x: np.ndarray, lo: np.ndarray, hi: np.ndarray, level: float,
     else:
         j = cross.shape[1] - 1 - np.argmax(cross[:, ::-1], axis=1)
     i = idx[np.arange(idx.shape[0]), j + 1]
-    out = _interp_crossing(x, np.maximum(i, 1), level)
+    out = interpolate_crossing(x, np.maximum(i, 1), level)
     return np.where(has, out, np.nan)
 
 
@@ -260,51 +245,77 @@ def segment(v: np.ndarray, sample_interval_s: float, t0_s: float = 0.0,
     if down_end.size < 2:
         raise NoFullCycleError("fewer than two complete reset edges in the record")
 
-    # reset time: last 50 % crossing at or before the first sample below the lower threshold
+    # reset time: the last 50 % crossing at or before the first sample below the lower
+    # threshold, searched only near each fast edge
     fast = int(np.max(down_end - down_start)) if down_end.size else 1
     approx_period = float(np.median(np.diff(down_end))) if down_end.size > 1 else float(n)
     width = int(min(max(4, 2 * fast + int(0.02 * approx_period)), max(4, int(0.25 * approx_period))))
-    # reset time: the last 50 % crossing at or before the first sample below the lower
-    # threshold; retrace extent: the fast edge's 90 % and 10 % crossings, extrapolated
-    # along the edge to the high and low levels (fraction-of-a-sample timing). Crossings
-    # are searched only in a window around each fast edge.
     t50 = _local_crossing(x, down_start, down_end, mid, "last")
     ok = np.isfinite(t50)
     down_end, down_start, t50 = down_end[ok], down_start[ok], t50[ok]
     if down_end.size < 2:
         raise NoFullCycleError("fewer than two clean reset edges in the record")
     reset_idx = t50
-    i50 = np.ceil(t50).astype(np.int64)
-    t90 = _local_crossing(x, down_start - width, i50, lo_m + 0.9 * span, "last")
-    t10 = _local_crossing(x, i50 - 1, down_end + width, lo_m + 0.1 * span, "first")
+    return _build(x, lo_m, span, levels, direction, "signal", sample_interval_s, t0_s,
+                  reset_idx, np.ceil(t50).astype(np.int64), down_start, down_end, width,
+                  float(np.median(np.diff(reset_idx))))
+
+
+def _build(xm: np.ndarray, lo_m: float, span: float, levels: StateLevels, direction: str,
+           source: str, dt: float, t0: float, reset_idx: np.ndarray, i50: np.ndarray,
+           before: np.ndarray, after: np.ndarray, width: int,
+           period_samples: float) -> Segmentation:
+    """Retrace extent and ramp boundaries of every cycle, shared by both segmenters.
+
+    Parameters
+    ----------
+    xm : ndarray
+        The ramp in the measurement frame (rising, resetting downwards).
+    lo_m, span : float
+        Low level (measurement frame) and span between the levels, volts.
+    reset_idx : ndarray
+        Fractional sample index of each reset edge.
+    i50 : ndarray of int
+        First sample after each reset edge's 50 % crossing.
+    before, after : ndarray of int
+        Samples bounding each fast edge (the last one above the upper
+        threshold and the first below the lower one, or the sync edge twice).
+    width : int
+        How far, in samples, to look around each edge for its crossings.
+
+    The retrace runs from the fast edge's 90 % crossing to its 10 % crossing,
+    each extrapolated along the edge (by 1/8 of the 90-10 % time) to the
+    levels, to a fraction of a sample; where the crossings are not clean, the
+    peak before and the trough after the edge stand in. A dwell at the low
+    level after the reset and a plateau at the high level before it belong to
+    the retrace.
+    """
+    n = xm.size
+    t90 = _local_crossing(xm, before - width, i50, lo_m + 0.9 * span, "last")
+    t10 = _local_crossing(xm, i50 - 1, after + width, lo_m + 0.1 * span, "first")
     fall = t10 - t90
     ext = 0.125 * fall
-    edge_ok = np.isfinite(fall)
-    # fall back to the peak and trough next to the edge where the crossings are not clean
-    peak = _window_argext(x, down_start - width + 1, width, "max").astype(float)
-    trough = _window_argext(x, down_end, width, "min").astype(float)
-    peak = np.where(edge_ok, t90 - ext, peak)
-    trough = np.where(edge_ok, t10 + ext, trough)
+    ok = np.isfinite(fall)
+    edge = int((after - before).max(initial=0))
+    peak = _window_argext(xm, before - width + 1, width + edge, "max").astype(float)
+    trough = _window_argext(xm, np.maximum(peak.astype(np.int64), before), width + 1 + edge,
+                            "min").astype(float)
+    peak = np.where(ok, t90 - ext, peak)
+    trough = np.where(ok, t10 + ext, trough)
     trough = np.maximum(trough, peak + 1e-3)
-
-    dt = sample_interval_s
-    reset_t = t0_s + reset_idx * dt
-    period_samples = float(np.median(np.diff(reset_idx)))
-    # a dwell after the reset belongs to the retrace, a plateau before it too
-    starts = _skip_low_dwell(x, lo_m, span, trough, np.append(peak[1:], n), period_samples)
-    ends = _cut_high_plateau(x, lo_m, span, peak[1:], starts[:-1], period_samples)
-    ramp_start = t0_s + starts[:-1] * dt
-    ramp_end = t0_s + ends * dt
-    retrace_end = t0_s + starts[1:] * dt
+    starts = _skip_low_dwell(xm, lo_m, span, trough, np.append(peak[1:], n), period_samples)
+    ends = _cut_high_plateau(xm, lo_m, span, peak[1:], starts[:-1], period_samples)
+    ramp_start = t0 + starts[:-1] * dt
+    ramp_end = t0 + ends * dt
+    retrace_end = t0 + starts[1:] * dt
     good = ramp_end > ramp_start
     if not np.any(good):
         raise NoFullCycleError("no full ramp between two reset edges")
-    partial = int(peak[0] > 2) + int(trough[-1] < n - 3)
     return Segmentation(
-        direction=direction, levels=levels, reset_times_s=reset_t,
+        direction=direction, levels=levels, reset_times_s=t0 + reset_idx * dt,
         ramp_start_s=ramp_start[good], ramp_end_s=ramp_end[good],
         retrace_end_s=retrace_end[good], full_cycles=int(np.count_nonzero(good)),
-        partial_cycles=partial, source="signal")
+        partial_cycles=int(peak[0] > 2) + int(trough[-1] < n - 3), source=source)
 
 
 def _segment_with_sync(x: np.ndarray, s: np.ndarray, dt: float, t0: float,
@@ -340,10 +351,7 @@ def _segment_with_sync(x: np.ndarray, s: np.ndarray, dt: float, t0: float,
     direction = "rising" if jump < 0 else "falling"
     xm = x if direction == "rising" else -x
     # fractional edge time at the sync channel's 50 % level
-    i = np.clip(edges, 1, n - 1)
-    a, b = s[i - 1], s[i]
-    den = np.where(a != b, b - a, 1.0)
-    reset_idx = (i - 1) + np.clip((s_mid - a) / den, 0.0, 1.0)
+    reset_idx = interpolate_crossing(s, np.clip(edges, 1, n - 1), s_mid)
     width = max(4, int(0.1 * period))
     keep = (edges - width > 0) & (edges + 2 * width < n)
     edges, reset_idx = edges[keep], reset_idx[keep]
@@ -353,25 +361,5 @@ def _segment_with_sync(x: np.ndarray, s: np.ndarray, dt: float, t0: float,
     # the ramp's own fast edge near each sync edge gives the retrace's extent
     t50 = _local_crossing(xm, edges - width, edges + width, lo_m + 0.5 * span, "last")
     i50 = np.where(np.isfinite(t50), np.ceil(np.nan_to_num(t50)), edges).astype(np.int64)
-    t90 = _local_crossing(xm, edges - width, i50, lo_m + 0.9 * span, "last")
-    t10 = _local_crossing(xm, i50 - 1, edges + width, lo_m + 0.1 * span, "first")
-    fall = t10 - t90
-    ext = 0.125 * fall
-    ok = np.isfinite(fall)
-    peak = _window_argext(xm, edges - width, 2 * width, "max").astype(float)
-    trough = _window_argext(xm, np.maximum(peak.astype(np.int64), edges - width // 2),
-                            2 * width, "min").astype(float)
-    peak = np.where(ok, t90 - ext, peak)
-    trough = np.where(ok, t10 + ext, trough)
-    trough = np.maximum(trough, peak + 1e-3)
-    starts = _skip_low_dwell(xm, lo_m, span, trough, np.append(peak[1:], n), float(period))
-    ends = _cut_high_plateau(xm, lo_m, span, peak[1:], starts[:-1], float(period))
-    ramp_start = t0 + starts[:-1] * dt
-    ramp_end = t0 + ends * dt
-    retrace_end = t0 + starts[1:] * dt
-    good = ramp_end > ramp_start
-    return Segmentation(
-        direction=direction, levels=levels, reset_times_s=t0 + reset_idx * dt,
-        ramp_start_s=ramp_start[good], ramp_end_s=ramp_end[good],
-        retrace_end_s=retrace_end[good], full_cycles=int(np.count_nonzero(good)),
-        partial_cycles=int(peak[0] > 2) + int(trough[-1] < n - 3), source="sync")
+    return _build(xm, lo_m, span, levels, direction, "sync", dt, t0, reset_idx, i50,
+                  edges, edges, width, float(period))

@@ -2,10 +2,12 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, replace
 from typing import Any
 
+from .circuit import CircuitContext
 from .errors import SettingsError
+from .jsonable import ToDict
 
 #: Default fraction of each ramp's duration trimmed at each end of the fit window.
 DEFAULT_TRIM_FRACTION = 0.05
@@ -14,7 +16,7 @@ MAX_TRIM_FRACTION = 0.4
 
 
 @dataclass(frozen=True)
-class Settings:
+class Settings(ToDict):
     """How a capture is measured.
 
     Attributes
@@ -44,33 +46,22 @@ class Settings:
     channel: str | int | None = None
     sync_channel: str | int | None = None
     phase_bins: int | None = None
-    context: Any = None  # trueslope.core.context.CircuitContext
+    context: CircuitContext | None = None
 
     def __post_init__(self) -> None:
         t = self.trim_fraction
         if not (0.0 <= t <= MAX_TRIM_FRACTION):
             raise SettingsError(
-                f"trim fraction must be between 0 and {MAX_TRIM_FRACTION}, got {t}")
+                f"the trim fraction must be between 0 and {MAX_TRIM_FRACTION}, got {t}", "trim")
         if self.window_s is not None:
             a, b = self.window_s
             if not (0.0 <= a < b):
                 raise SettingsError(
                     f"fit window must satisfy 0 <= start < end (seconds from the ramp "
-                    f"start), got {a} to {b}")
+                    f"start), got {a} to {b}", "window")
         if self.phase_bins is not None and self.phase_bins < 16:
-            raise SettingsError(f"phase_bins must be at least 16, got {self.phase_bins}")
+            raise SettingsError(f"must be at least 16, got {self.phase_bins}", "phase_bins")
 
     def with_(self, **changes: Any) -> "Settings":
         """Return a copy with some fields changed (validated again)."""
         return replace(self, **changes)
-
-    def to_dict(self) -> dict[str, Any]:
-        ctx = self.context
-        return {
-            "trim_fraction": self.trim_fraction,
-            "window_s": list(self.window_s) if self.window_s else None,
-            "channel": self.channel,
-            "sync_channel": self.sync_channel,
-            "phase_bins": self.phase_bins,
-            "context": ctx.to_dict() if ctx is not None and hasattr(ctx, "to_dict") else None,
-        }

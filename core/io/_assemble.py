@@ -462,8 +462,8 @@ def assemble(columns: list[Column], *, path: str, locate: Locator, layout: str,
         else:
             raise NoSampleIntervalError(
                 "no time column, no sample interval or sample rate in a preamble, and no "
-                "sample interval given: the time between samples is unknown. Pass it, e.g. "
-                "--sample-interval 1u for 1 microsecond per sample", path)
+                "sample interval given: the time between samples is unknown. Give the "
+                "sample interval, e.g. 1u for 1 microsecond per sample", path)
     if time_col is not None or intrinsic_interval_s is not None:
         if sample_interval_s is not None and abs(sample_interval_s - dt) > INTERVAL_AGREEMENT * dt:
             warns.append(TrueslopeWarning(

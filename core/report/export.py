@@ -1,0 +1,162 @@
+"""Documents to file: the JSON document of an analysis and the CSV tables.
+
+The JSON keys are the figures' SI names (``slope_v_per_s``...); the diagnosis
+and self-check carry their sentences beside their numbers, written by
+:mod:`.prose`. CSV cells that a spreadsheet would run as a formula are
+neutralised.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+from typing import Any, Iterable
+
+from ..jsonable import plain
+from ..results import Analysis, CycleFigures
+from .prose import (PROBE_MATCH_WORDS, explanation, likely_cause, next_checks,
+                    selfcheck_summary, strength_words)
+
+#: One-sentence definition of every summary figure (tooltips in the window, README).
+FIGURE_DEFINITIONS: dict[str, str] = {
+    "direction": "Rising: slow rise and fast reset downwards; falling: the mirror image.",
+    "full_cycles": "Cycles with a whole ramp and retrace inside the record.",
+    "partial_cycles": "Cut-off cycles at the ends of the record, left out of every figure.",
+    "frequency_hz": "1 / mean period between reset edges (50 % crossings of the fast edge).",
+    "period_s": "Mean time between successive reset edges.",
+    "period_jitter_s": "Standard deviation of the periods between reset edges.",
+    "ramp_time_s": "Mean time from the end of one reset to the start of the next.",
+    "retrace_time_s": "Mean duration of the fast reset edge, its 90-10 % crossings extrapolated to the levels.",
+    "offset_v": "Best-fit line's value at the ramp start.",
+    "start_v": "Level where the averaged ramp starts (local line through its first 3 %).",
+    "end_v": "Level where the averaged ramp ends (local line through its last 3 %).",
+    "amplitude_v": "|end level - start level|.",
+    "slope_v_per_s": "Slope of the least-squares line over the fit window of the averaged cycle (true sign).",
+    "slope_ci95_v_per_s": "95 % interval of the slope from the spread of the per-cycle slopes (Student t).",
+    "peak_deviation_v": "Largest |systematic residual| against the best-fit line over the window (noise smoothed away).",
+    "nonlinearity_pct": "100 x peak deviation / fitted span over the window (best-fit line, IEEE 1241 independent basis).",
+    "terminal_nonlinearity_pct": "100 x largest deviation from the chord through the window's end points / swing (IEEE 1241 terminal basis).",
+    "slope_error_pct": "Sweep slope error e_s = (v'(start) - v'(end)) / v'(start) over the window (Millman and Taub).",
+    "displacement_error_pct": "Sweep displacement error e_d = deviation from the chord at its largest / swing; positive when the ramp bows above the chord (Millman and Taub).",
+    "transmission_error_pct": "Sweep transmission error e_t = (v'(start) T - swing) / (v'(start) T) (Millman and Taub).",
+    "midpoint_time_error_s": "How late (+) or early (-) the ramp crosses the window's mid level, against the chord.",
+    "midpoint_time_error_pct": "Midpoint time error as % of the ramp time.",
+    "residual_rms_v": "RMS of every sample's residual about its own cycle's best-fit line (noise and shape).",
+    "noise_rms_v": "Random noise of one sample, from the cycle-to-cycle spread at the same phase.",
+    "adc_step_v": "Quantisation step detected in the samples (none when they are not on a grid).",
+    "nonlinearity_floor_pct": "Smallest nonlinearity this capture resolves: 4 standard deviations of the smoothed averaged residual / span.",
+    "below_floor": "True when the nonlinearity is below the resolution floor: straight to within the noise.",
+    "trim_fraction": "Fraction of each ramp left out of the fit at each end.",
+    "window_start_s": "Fit window start, seconds from the ramp start.",
+    "window_end_s": "Fit window end, seconds from the ramp start.",
+    "fitted_span_v": "Rise of the best-fit line across the fit window.",
+}
+
+
+
+
+def diagnosis_document(a: Analysis) -> dict[str, Any]:
+    """The diagnosis as JSON types: its numbers and codes, and its words."""
+    d = a.diagnosis
+    doc = d.to_dict()
+    doc.update(strength_words=strength_words(d.strength), explanation=explanation(d),
+               next_checks=list(next_checks(d)))
+    return doc
+
+
+def selfcheck_document(a: Analysis) -> dict[str, Any] | None:
+    """The self-check as JSON types, each item with its likely cause in words."""
+    c = a.context_check
+    if c is None:
+        return None
+    doc = c.to_dict()
+    doc["items"] = [dict(i.to_dict(), likely_cause=likely_cause(i, a.diagnosis))
+                    for i in c.items]
+    doc["probe_match_code"] = c.probe_match
+    doc["probe_match"] = PROBE_MATCH_WORDS[c.probe_match]
+    doc["summary"] = selfcheck_summary(c, a.diagnosis)
+    return doc
+
+
+def analysis_document(a: Analysis) -> dict[str, Any]:
+    """The flat JSON document of one analysis (the command line's ``--json``)."""
+    d: dict[str, Any] = {
+        "file": a.source,
+        "channel": a.channel,
+        "samples": a.samples,
+        "sample_interval_s": a.sample_interval_s,
+    }
+    d.update(a.figures.to_dict())
+    d["averaged_noise_rms_v"] = plain(a.noise.averaged_noise_rms_v)
+    d["segmentation_source"] = a.segmentation.source
+    d["low_level_v"] = plain(a.segmentation.levels.low_v)
+    d["high_level_v"] = plain(a.segmentation.levels.high_v)
+    d["warnings"] = [str(w) for w in a.warnings]
+    d["warning_codes"] = [w.code for w in a.warnings]
+    d["metadata"] = dict(a.metadata)
+    d["settings"] = a.settings.to_dict()
+    d["diagnosis"] = diagnosis_document(a)
+    d["context_check"] = selfcheck_document(a)
+    d["cycles"] = [c.to_dict() for c in a.cycles]
+    return d
+
+
+def to_json(analyses: Analysis | Iterable[Analysis], indent: int | None = 2) -> str:
+    """One JSON document for one analysis, a list for several."""
+    if isinstance(analyses, Analysis):
+        return json.dumps(analysis_document(analyses), indent=indent, allow_nan=False)
+    return json.dumps([analysis_document(a) for a in analyses], indent=indent, allow_nan=False)
+
+
+CYCLE_COLUMNS = [
+    "index", "ramp_start_s", "ramp_time_s", "retrace_time_s", "period_s", "offset_v", "start_v",
+    "end_v", "amplitude_v", "slope_v_per_s", "slope_ci95_low_v_per_s", "slope_ci95_high_v_per_s",
+    "peak_deviation_v", "nonlinearity_pct", "terminal_nonlinearity_pct", "residual_rms_v", "outlier",
+]
+
+
+def safe_cell(value: Any) -> Any:
+    """A CSV cell a spreadsheet will not run: text starting with = + - @ (or a tab or
+    carriage return) gets a leading apostrophe; numbers pass unchanged."""
+    if isinstance(value, str) and value[:1] in ("=", "+", "-", "@", "\t", "\r"):
+        try:
+            float(value)
+            return value
+        except ValueError:
+            return "'" + value
+    return value
+
+
+def cycle_row(c: CycleFigures) -> list[Any]:
+    """One cycle as a CSV row in :data:`CYCLE_COLUMNS` order."""
+    d = c.to_dict()
+    lo, hi = d.pop("slope_ci95_v_per_s")
+    d["slope_ci95_low_v_per_s"], d["slope_ci95_high_v_per_s"] = lo, hi
+    return [d[k] for k in CYCLE_COLUMNS]
+
+
+def cycles_csv(a: Analysis) -> str:
+    """Per-cycle figures as CSV text (SI units in the column names)."""
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    w.writerow(CYCLE_COLUMNS)
+    for c in a.cycles:
+        w.writerow(cycle_row(c))
+    return buf.getvalue()
+
+
+def figures_csv(a: Analysis) -> str:
+    """Summary figures as two-column CSV text: figure, value (SI)."""
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    w.writerow(["figure", "value"])
+    for k, v in analysis_document(a).items():
+        if k in ("cycles", "diagnosis", "context_check", "metadata", "warnings",
+                 "warning_codes", "settings"):
+            continue
+        if isinstance(v, list):
+            v = " ".join("" if x is None else repr(x) for x in v)
+        w.writerow([k, safe_cell("" if v is None else v)])
+    w.writerow(["diagnosis_signature", a.diagnosis.signature])
+    return buf.getvalue()
