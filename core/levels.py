@@ -1,6 +1,6 @@
 """State levels by the histogram method of IEEE Std 181.
 
-IEEE Std 181 (transitions, pulses and related waveforms) finds the two state
+IEEE Std 181 (transitions, pulses and related waveforms; SOURCES.md [ieee181]) finds the two state
 levels of a record from its amplitude histogram: the histogram is split at
 the midpoint between its lowest and highest occupied bins and each level is
 the mode (or the mean) of its half. A sawtooth has no dwell at either level,
@@ -23,7 +23,8 @@ def _histogram(x: np.ndarray, bins: int) -> tuple[np.ndarray, np.ndarray]:
     if hi - lo <= 1e-9 * max(1.0, abs(lo)):
         pad = max(abs(lo) * 1e-6, 1e-9)
         lo, hi = lo - pad, hi + pad
-    # equal-width bins by integer scaling: several times faster than numpy.histogram
+    # equal-width bins by integer scaling and bincount (about 1.45x numpy.histogram on
+    # 10 M samples, measured once on the project machine; its edges are the same)
     scale = bins / (hi - lo)
     idx = ((x - lo) * scale).astype(np.int64)
     np.clip(idx, 0, bins - 1, out=idx)

@@ -260,27 +260,12 @@ class CycleArrays:
     Measurement frame (mirrored for a falling ramp); turned into
     :class:`CycleFigures` in true polarity by ``linearity.build_cycles``.
 
-    Attributes
-    ----------
-    ramp_start_s, ramp_time_s : ndarray
-        Ramp start (absolute) and duration, seconds.
-    slope_v_per_s, intercept_v : ndarray
-        Least-squares line over the cycle's fit window; the intercept is the
-        line's value at the ramp start.
-    slope_stderr_v_per_s : ndarray
-        OLS standard error of the slope.
-    dof : ndarray
-        Degrees of freedom of the fit (samples in the window - 2).
-    peak_deviation_v, terminal_peak_v : ndarray
-        Largest |residual| against the best-fit and the terminal line.
-    fitted_span_v, terminal_span_v : ndarray
-        Rise of the best-fit and of the terminal line across the window.
-    start_v, end_v : ndarray
-        Levels where the ramp starts and ends (local means moved along the slope).
-    ssr_v2 : ndarray
-        Residual sum of squares about the best-fit line, volts squared.
-    window_samples : ndarray
-        Samples in the fit window.
+    Ramp start (absolute) and duration; the least-squares line over the
+    cycle's window (intercept at the ramp start) with its slope's OLS standard
+    error and degrees of freedom; the largest |residual| against the best-fit
+    and the terminal line and each line's rise across the window; the start
+    and end levels (local means moved along the slope); the residual sum of
+    squares (V^2) and the samples in the window.
     """
 
     ramp_start_s: np.ndarray
@@ -303,20 +288,9 @@ class CycleArrays:
 class PhaseSums:
     """Sums over every ramp sample, binned by phase ``u = (t - ramp start) / ramp time``.
 
-    One entry per phase bin; the kernel adds to them block by block.
-
-    Attributes
-    ----------
-    count : ndarray
-        Samples in the bin.
-    phase : ndarray
-        Sum of u.
-    voltage_v : ndarray
-        Sum of the samples (measurement frame).
-    residual_v : ndarray
-        Sum of the residuals about each sample's own cycle line.
-    residual_sq_v2 : ndarray
-        Sum of the squared residuals.
+    One entry per phase bin, added to block by block: the count of samples,
+    the sums of u, of the samples (measurement frame), of their residuals
+    about their own cycle's line, and of the squared residuals.
     """
 
     count: np.ndarray
@@ -332,19 +306,12 @@ class SweepErrors(ToDict):
 
     Definitions: SOURCES.md [sweep]; measurement frame.
 
-    Attributes
-    ----------
-    start_slope_v_per_s, end_slope_v_per_s : float
-        v'(a) and v'(b), the slope at the window's start and end.
-    slope_error_pct : float
-        ``100 (v'(a) - v'(b)) / v'(a)``.
-    displacement_error_pct : float
-        100 x the deviation from the chord at its largest / swing (positive
-        when the ramp bows above the chord).
-    transmission_error_pct : float
-        ``100 (v'(a) T - swing) / (v'(a) T)``.
-    midpoint_time_error_s : float
-        How late (+) the ramp crosses the window's mid level against the chord.
+    ``start_slope_v_per_s`` and ``end_slope_v_per_s`` are v'(a) and v'(b);
+    slope error ``100 (v'(a) - v'(b)) / v'(a)``; displacement error 100 x the
+    deviation from the chord at its largest / swing (positive when the ramp
+    bows above the chord); transmission error ``100 (v'(a) T - swing) /
+    (v'(a) T)``; ``midpoint_time_error_s`` how late (+) the ramp crosses the
+    window's mid level against the chord.
     """
 
     start_slope_v_per_s: float
@@ -359,19 +326,12 @@ class SweepErrors(ToDict):
 class ShapeDescription(ToDict):
     """What an unexplained shape looks like, in numbers (the words are the report's).
 
-    Attributes
-    ----------
-    kind : str
-        ``"bow"`` (one bend), ``"s-bend"`` (the curvature changes sign) or ``"wavy"``.
-    bumps : int
-        For ``"wavy"``, about how many bumps.
-    peak_pct : float
-        Largest deviation from the best-fit line, % of the fitted span.
-    peak_at_fraction, steepest_at_fraction, flattest_at_fraction : float
-        Where along the ramp (0 = start, 1 = end) the deviation peaks, and the
-        slope is steepest and flattest.
-    peak_in_window_fraction : float
-        Where the peak lies within the fit window (0 = its start, 1 = its end).
+    ``kind`` is ``"bow"`` (one bend), ``"s-bend"`` (the curvature changes
+    sign) or ``"wavy"`` (with about ``bumps`` bumps); ``peak_pct`` the largest
+    deviation from the best-fit line, % of the span; the ``*_fraction``
+    fields say where along the ramp (0 = start, 1 = end; for
+    ``peak_in_window_fraction``, along the fit window) the deviation peaks
+    and the slope is steepest and flattest.
     """
 
     kind: str
@@ -467,23 +427,12 @@ class Diagnosis(ToDict):
 class CheckItem(ToDict):
     """One figure the stated parts predict, beside the one measured.
 
-    Attributes
-    ----------
-    name : str
-        ``"slope"``, ``"ramp time"``, ``"period"``, ``"frequency"``,
-        ``"equivalent shunt"``, ``"nonlinearity"``, ``"implied current"`` or
-        ``"implied capacitance"``.
-    expected, measured : float or None
-        SI units (``unit``); None where it cannot be worked out.
-    unit : str
-        ``"V/s"``, ``"s"``, ``"Hz"``, ``"Ω"``, ``"%"``, ``"A"``, ``"F"``.
-    verdict : str
-        ``"within tolerance"``, ``"outside"`` or ``"not checked"``.
-    deviation_pct : float or None
-        ``100 (measured - expected) / expected``.
-    causes : tuple of str
-        Codes of the likely causes when outside (what it is, when not
-        checked); ``report`` words them.
+    ``name`` is one of slope, ramp time, period, frequency, equivalent shunt,
+    nonlinearity, implied current, implied capacitance; ``expected`` and
+    ``measured`` are in ``unit`` (SI; None where unknown); ``verdict`` is
+    "within tolerance", "outside" or "not checked"; ``deviation_pct`` is
+    ``100 (measured - expected) / expected``; ``causes`` are the codes of the
+    likely causes when outside (what it is, when not checked), worded by ``report``.
     """
 
     name: str
