@@ -69,7 +69,8 @@ case "$cmd" in
         need_debs
         setup_venv
         export QT_QPA_PLATFORM=offscreen
-        exec .venv/bin/python -m pytest -q "$@"
+        # -rs: every skipped test is listed with its reason at the end of the run
+        exec .venv/bin/python -m pytest -q -rs "$@"
         ;;
     *)
         echo "usage: bash packaging/dev.sh run|test [arguments]" >&2

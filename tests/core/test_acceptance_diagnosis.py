@@ -22,7 +22,8 @@ from collections import Counter
 
 import pytest
 
-from spice_cases import full_scale_for, list_cases, load_case, quantise
+from tests.support.quantise import full_scale_for, quantise
+from tests.support.spice import list_cases, load_case
 from trueslope.core.analysis import analyse
 from trueslope.core.capture import Capture
 from trueslope.core.settings import Settings

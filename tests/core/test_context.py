@@ -19,7 +19,7 @@ from trueslope.core.diagnose import diagnose
 from trueslope.core.errors import SettingsError
 from trueslope.core.settings import Settings
 
-from .test_diagnose_builder import averaged_from_model, capture_from_cycles
+from tests.support.builders import averaged_from_model, capture_from_cycles
 
 I_A, C_F = 100e-6, 10e-9
 

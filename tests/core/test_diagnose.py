@@ -3,7 +3,7 @@
 Each check names its source beside it. Captures are built from closed-form
 solutions or from scipy.integrate.solve_ivp (a reference ODE solver), then
 quantised and run through the whole pipeline (``analyse``); a few checks call
-``diagnose`` on averaged cycles built directly (``test_diagnose_builder``).
+``diagnose`` on averaged cycles built directly (``tests/support/builders.py``).
 """
 
 from __future__ import annotations
@@ -20,7 +20,7 @@ from trueslope.core.diagnose import (BIC_MARGIN, SIGNATURES, Diagnosis, diagnose
                                      strength_words)
 from trueslope.core.settings import Settings
 
-from .test_diagnose_builder import averaged_from_model, capture_from_cycles, dow_cycles
+from tests.support.builders import averaged_from_model, capture_from_cycles, dow_cycles
 
 I_A = 100e-6
 C_F = 10e-9

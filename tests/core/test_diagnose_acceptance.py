@@ -5,7 +5,7 @@ noise seeds (no false alarms); state the seed range in the test." The ramp is
 the ngspice capture ``straight`` (100 uA into 10 nF, ideal parts; an
 independent circuit simulator, ``tests/fixtures/spice``), degraded as a scope
 would: Gaussian noise of half an ADC step, then an 8-bit ADC over the trace
-widened by 10 % at each end (``spice_cases.quantise``). Seeds 0 to 99.
+widened by 10 % at each end (``tests.support.quantise``). Seeds 0 to 99.
 
 The signature and shunt acceptance over every simulated case is in
 ``test_acceptance_diagnosis.py``; here the 10x probe case is also taken
@@ -18,7 +18,8 @@ from collections import Counter
 
 import pytest
 
-from spice_cases import full_scale_for, load_case, quantise
+from tests.support.quantise import full_scale_for, quantise
+from tests.support.spice import load_case
 from trueslope.core.analysis import analyse
 from trueslope.core.capture import Capture
 from trueslope.core.context import parse_context

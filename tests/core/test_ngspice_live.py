@@ -2,17 +2,16 @@
 
 Handbook formula: a constant current I into a capacitance C gives a ramp of
 slope dV/dt = I / C (i = C dv/dt). Here I = 100 uA and C = 10 nF, so 10 000 V/s.
-Skipped when ``ngspice`` (Debian package) is not on PATH.
+Skipped when ``ngspice`` (Debian package) is not on PATH, failed instead when
+the environment variable ``CI`` is true (the ``ngspice`` fixture, tests/conftest.py).
 """
 
 from __future__ import annotations
 
-import shutil
-
 import numpy as np
 import pytest
 
-from spice_cases import live_netlist, run_ngspice
+from tests.support.spice import live_netlist, run_ngspice
 from trueslope.core.analysis import analyse
 from trueslope.core.capture import Capture
 from trueslope.core.settings import Settings
@@ -28,8 +27,7 @@ C1 ramp 0 {C_F:g} IC=0""",
                        ".tran 200n 5.6m 0.4m 20n uic")
 
 
-@pytest.mark.skipif(shutil.which("ngspice") is None, reason="ngspice is not installed")
-def test_slope_of_a_live_ngspice_ramp_matches_i_over_c(tmp_path):
+def test_slope_of_a_live_ngspice_ramp_matches_i_over_c(tmp_path, ngspice):
     t, v = run_ngspice(NETLIST, tmp_path, "live")
     dt = (t[-1] - t[0]) / (t.size - 1)
     cap = Capture(source="live.cir", channels={"CH1": v}, sample_interval_s=dt, t0_s=t[0])

@@ -12,7 +12,7 @@ import pytest
 from trueslope.core.analysis import analyse
 from trueslope.core.settings import Settings
 
-from .synth import exponential, sawtooth, straight
+from tests.support.synth import exponential, sawtooth, straight
 
 
 @pytest.fixture(scope="module")

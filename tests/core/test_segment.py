@@ -10,7 +10,7 @@ from trueslope.core.errors import NoFullCycleError, NotASawtoothError
 from trueslope.core.segment import segment
 from trueslope.core.settings import Settings
 
-from .synth import sawtooth, straight
+from tests.support.synth import sawtooth, straight
 
 
 def test_rising_and_falling_detected():

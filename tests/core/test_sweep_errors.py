@@ -18,7 +18,7 @@ import pytest
 from trueslope.core.analysis import analyse
 from trueslope.core.settings import Settings
 
-from .synth import exponential, sawtooth, straight
+from tests.support.synth import exponential, sawtooth, straight
 
 
 def exact_errors(y):

@@ -5,18 +5,29 @@ simulator output. The acceptance tests degrade them as an oscilloscope
 would -- noise added ahead of an ADC of 8 to 12 bits -- and write them in
 every layout the importer reads, then compare trueslope's figures with the
 reference figures computed from the noiseless output by
-``tests/fixtures/spice/regenerate.py``.
+``tests/fixtures/spice/regenerate.py``. The ADC model is
+:func:`tests.support.quantise.quantise`, the one every test uses.
+
+From the project root, ``python -m tests.support.spice [bits] [noise_mV] [seed]``
+prints the engine's figures against the truth for every case.
 """
 
 from __future__ import annotations
 
 import json
+import os
+import shutil
 from pathlib import Path
 from typing import Callable
 
 import numpy as np
 
-FIXTURES = Path(__file__).resolve().parent / "fixtures" / "spice"
+from .quantise import full_scale_for, quantise
+
+__all__ = ["FIXTURES", "LAYOUTS", "WITH_TIME_COLUMN", "in_ci", "list_cases", "live_netlist",
+           "load_case", "require_ngspice", "run_ngspice", "write_layout"]
+
+FIXTURES = Path(__file__).resolve().parents[1] / "fixtures" / "spice"
 
 
 def live_netlist(title: str, elements: str, tran: str) -> str:
@@ -54,8 +65,36 @@ def run_ngspice(netlist: str, folder: Path, name: str = "live") -> tuple[np.ndar
 
 
 def list_cases() -> list[str]:
-    """Names of the stored cases, sorted."""
-    return sorted(p.stem for p in FIXTURES.glob("*.npz"))
+    """Names of the stored cases, sorted.
+
+    Raises FileNotFoundError when there are none: an empty list would turn every
+    test parametrised over the cases into a silent skip.
+    """
+    names = sorted(p.stem for p in FIXTURES.glob("*.npz"))
+    if not names:
+        raise FileNotFoundError(f"no reference captures (*.npz) in {FIXTURES}")
+    return names
+
+
+def in_ci() -> bool:
+    """True when the environment variable ``CI`` is set to a true value (``.ci/run`` sets
+    ``CI=true``; most CI services do too)."""
+    return os.environ.get("CI", "").strip().lower() in ("1", "true", "yes", "on")
+
+
+def require_ngspice() -> str:
+    """The path of ``ngspice``, or end the calling test: skipped on a developer's machine
+    (with the reason), failed under CI, where a missing simulator must not pass unseen."""
+    import pytest
+
+    path = shutil.which("ngspice")
+    if path is not None:
+        return path
+    why = ("ngspice is not on PATH, so the live simulator check cannot run "
+           "(Debian package ngspice; bash packaging/dev.sh test installs it when run as root)")
+    if in_ci():
+        pytest.fail(f"{why}; CI is set, where this check must run", pytrace=False)
+    pytest.skip(why)
 
 
 def load_case(name: str) -> tuple[float, float, np.ndarray, dict]:
@@ -77,31 +116,6 @@ def load_case(name: str) -> tuple[float, float, np.ndarray, dict]:
         t0, dt, v = float(z["t0_s"]), float(z["dt_s"]), z["v"].astype(np.float64)
     truth = json.loads((FIXTURES / f"{name}.json").read_text())
     return t0, dt, v, truth
-
-
-def full_scale_for(v: np.ndarray, margin: float = 0.1) -> tuple[float, float]:
-    """An ADC range that holds the signal with ``margin`` of its span spare at each end
-    (as a scope set up with the trace filling most of the screen)."""
-    lo, hi = float(np.min(v)), float(np.max(v))
-    span = hi - lo
-    return lo - margin * span, hi + margin * span
-
-
-def quantise(v: np.ndarray, bits: int, full_scale_v: tuple[float, float],
-             noise_v: float = 0.0, seed: int = 0) -> np.ndarray:
-    """What an ADC records of ``v``: Gaussian noise added first, then rounded to the codes.
-
-    ``q = (hi - lo) / 2**bits``; code ``k = clip(round((v + n - lo) / q), 0, 2**bits - 1)``;
-    the value returned is ``lo + k q`` in volts (mid-tread quantiser, Widrow's model).
-    """
-    lo, hi = full_scale_v
-    rng = np.random.default_rng(seed)
-    x = np.asarray(v, dtype=float)
-    if noise_v:
-        x = x + rng.normal(0.0, noise_v, x.size)
-    q = (hi - lo) / 2 ** bits
-    codes = np.clip(np.round((x - lo) / q), 0, 2 ** bits - 1)
-    return lo + codes * q
 
 
 # ------------------------------------------------------------------ writers
@@ -233,7 +247,8 @@ def write_layout(layout: str, folder: Path, stem: str, t0: float, dt: float, v: 
 def _report(argv: list[str]) -> int:
     """Print trueslope's figures against the truth, per case, for one quantisation.
 
-    ``python tests/spice_cases.py [bits] [noise_mV] [seed]``; bits 0 = noiseless.
+    ``python -m tests.support.spice [bits] [noise_mV] [seed]`` from the project root;
+    bits 0 = noiseless.
     """
     from trueslope.core.analysis import analyse
     from trueslope.core.capture import Capture
@@ -243,9 +258,12 @@ def _report(argv: list[str]) -> int:
     noise_v = 1e-3 * float(argv[1]) if len(argv) > 1 else 2e-3
     seed = int(argv[2]) if len(argv) > 2 else 1
     try:
-        from trueslope.core.context import CircuitContext
+        from trueslope.core.circuit import CircuitContext
     except ImportError:
-        CircuitContext = None
+        try:  # before core/context.py was split
+            from trueslope.core.context import CircuitContext
+        except ImportError:
+            CircuitContext = None
     print(f"{bits} bits, {noise_v * 1e3:g} mV noise, seed {seed}; d = trueslope - truth")
     print(f"{'case':20s} {'d slope %':>9s} {'d freq %':>9s} {'d start mV':>10s} "
           f"{'d end mV':>8s} {'NL %':>7s} {'true NL':>7s} {'tol pp':>6s} {'floor':>6s} "

@@ -6,6 +6,8 @@ import numpy as np
 
 from trueslope.core.capture import Capture
 
+from .quantise import quantise
+
 
 def sawtooth(shape, cycles=12, samples_per_ramp=2000, retrace_samples=0.0, dt=1e-6,
              phase=0.0, bits=None, full_scale=(-0.5, 5.5), noise_v=0.0, seed=0,
@@ -14,6 +16,8 @@ def sawtooth(shape, cycles=12, samples_per_ramp=2000, retrace_samples=0.0, dt=1e
 
     The period is ``samples_per_ramp + retrace_samples`` samples (need not be whole);
     the retrace is a straight fall from shape(1) to shape(0) over ``retrace_samples``.
+    Noise of ``noise_v`` and an ADC of ``bits`` over ``full_scale`` (volts) as
+    :func:`tests.support.quantise.quantise`.
     """
     period = samples_per_ramp + retrace_samples
     n = int(np.ceil((cycles + 0.0) * period))
@@ -28,13 +32,7 @@ def sawtooth(shape, cycles=12, samples_per_ramp=2000, retrace_samples=0.0, dt=1e
         v[~ramp] = shape(np.ones(1))[0] + (shape(np.zeros(1))[0] - shape(np.ones(1))[0]) * f
     if falling:
         v = (full_scale[0] + full_scale[1]) - v
-    rng = np.random.default_rng(seed)
-    if noise_v:
-        v = v + rng.normal(0.0, noise_v, n)
-    if bits:
-        lo, hi = full_scale
-        q = (hi - lo) / 2 ** bits
-        v = lo + np.clip(np.round((v - lo) / q), 0, 2 ** bits - 1) * q
+    v = quantise(v, bits, full_scale, noise_v, seed)
     ch = {"CH1": v}
     if extra_channels:
         ch.update(extra_channels(n, pos, samples_per_ramp))
