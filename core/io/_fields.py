@@ -1,0 +1,103 @@
+"""Fields and numbers of one row of delimited text.
+
+The sniff (:mod:`.dialect`) and the block reader (:mod:`.delimited`) split
+rows and read numbers the same way; this is that one way.
+"""
+
+from __future__ import annotations
+
+import re
+
+__all__ = ["is_number", "split_row", "row_fields", "to_float"]
+
+_NUM_POINT = re.compile(r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?$")
+_NUM_COMMA = re.compile(r"[+-]?(?:\d+(?:,\d*)?|,\d+)(?:[eE][+-]?\d+)?$")
+_NONFINITE = re.compile(r"[+-]?(?:nan|inf|infinity)$", re.IGNORECASE)
+
+
+def is_number(f: str, decimal: str) -> bool:
+    """Whether a field is one number (or nan/inf) written with this decimal mark.
+
+    Parameters
+    ----------
+    f : str
+        The field, stripped.
+    decimal : str
+        ``"."`` or ``","``.
+
+    Returns
+    -------
+    bool
+    """
+    return bool((_NUM_COMMA if decimal == "," else _NUM_POINT).match(f) or _NONFINITE.match(f))
+
+
+def split_row(line: str, delimiter: str | None) -> list[str]:
+    """Split a line at every delimiter, stripping spaces and one pair of quotes.
+
+    Parameters
+    ----------
+    line : str
+        One line of text.
+    delimiter : str or None
+        A single character; None splits on runs of white space (no empty fields).
+
+    Returns
+    -------
+    list of str
+        Every field, empty ones included.
+    """
+    if delimiter is None:
+        return line.split()
+    parts = [p.strip() for p in line.split(delimiter)]
+    return [p[1:-1].strip() if len(p) >= 2 and p[0] == p[-1] == '"' else p for p in parts]
+
+
+def row_fields(line: str, delimiter: str | None, k: int) -> list[str]:
+    """Split a data row into its fields, stripped of spaces and quotes.
+
+    Parameters
+    ----------
+    line : str
+        One line of text.
+    delimiter : str or None
+        The dialect's delimiter; None splits on runs of white space.
+    k : int
+        Fields the row is expected to hold. One trailing empty field more
+        (a row ending in the delimiter) is dropped.
+
+    Returns
+    -------
+    list of str
+        The fields; their count may differ from ``k`` (a ragged row).
+    """
+    parts = split_row(line, delimiter)
+    if delimiter is not None and len(parts) == k + 1 and parts[-1] == "":
+        parts.pop()
+    return parts
+
+
+def to_float(text: str, decimal: str) -> float | None:
+    """Read one field as a number.
+
+    Parameters
+    ----------
+    text : str
+        The field, stripped; an empty field reads as NaN.
+    decimal : str
+        ``"."`` or ``","``, the dialect's decimal mark.
+
+    Returns
+    -------
+    float or None
+        None when the field is not a number written with that decimal mark.
+    """
+    if text == "":
+        return float("nan")
+    if decimal == ",":
+        if "." in text or not (_NUM_COMMA.match(text) or _NONFINITE.match(text)):
+            return None
+        text = text.replace(",", ".")
+    elif not (_NUM_POINT.match(text) or _NONFINITE.match(text)):
+        return None
+    return float(text)
