@@ -179,7 +179,7 @@ def test_unknown_unit_in_a_units_row(tmp_path):
 def test_no_time_no_interval(tmp_path):
     _, v = saw()
     p = write(tmp_path, "bare.csv", "CH1\n" + "".join(f"{x:.6f}\n" for x in v))
-    raises(E.NoSampleIntervalError, p, "no time column", "--sample-interval")
+    raises(E.NoSampleIntervalError, p, "no time column", "Give the sample interval")
 
 
 def test_bad_sample_interval_argument(tmp_path):

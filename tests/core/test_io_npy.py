@@ -37,7 +37,7 @@ def test_1d_round_trip(tmp_path):
 
 def test_1d_without_interval(tmp_path):
     _, v = saw()
-    with pytest.raises(E.NoSampleIntervalError, match="--sample-interval"):
+    with pytest.raises(E.NoSampleIntervalError, match="Give the sample interval"):
         load_capture(save(tmp_path, "one.npy", v))
 
 
