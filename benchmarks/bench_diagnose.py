@@ -29,12 +29,13 @@ from pathlib import Path
 import numpy as np
 
 ROOT = Path(__file__).resolve().parents[1]
-sys.path.insert(0, str(ROOT / "tests"))
+sys.path.insert(0, str(ROOT))  # a script run from anywhere: the project's test helpers
 
-from spice_cases import full_scale_for, list_cases, load_case, quantise  # noqa: E402
+from tests.support.quantise import full_scale_for, quantise  # noqa: E402
+from tests.support.spice import list_cases, load_case  # noqa: E402
 from trueslope.core.analysis import analyse  # noqa: E402
 from trueslope.core.capture import Capture  # noqa: E402
-from trueslope.core.context import CircuitContext  # noqa: E402
+from trueslope.core.circuit import CircuitContext  # noqa: E402
 from trueslope.core.diagnose import diagnose  # noqa: E402
 from trueslope.core.settings import Settings  # noqa: E402
 

@@ -479,11 +479,8 @@ class ContextCheck(ToDict):
 
 @dataclass(frozen=True)
 class Analysis:
-    """Everything trueslope measured on one channel of one capture.
-
-    ``report.analysis_document`` turns it into the JSON document of the
-    command line's ``--json`` and the window's JSON export.
-    """
+    """Everything measured on one channel of one capture (``report.analysis_document``
+    turns it into the JSON document of ``--json`` and the window's export)."""
 
     source: str
     channel: str
