@@ -8,8 +8,6 @@ instruments use for their channels, so a screenshot is never mistaken for one.
 
 from __future__ import annotations
 
-from PySide6 import QtGui
-
 #: Plot background and foreground (axes, tick labels).
 PLOT_BACKGROUND = "#fbf8f2"
 PLOT_FOREGROUND = "#3a3f47"
@@ -69,12 +67,6 @@ QLabel#formError { color: #9b2c22; }
 QFrame#welcome { background: #fbf8f2; border: 1px dashed #cbbf9f; border-radius: 6px; }
 QLabel#welcomeTitle { font-size: 22px; font-weight: 600; color: #39475a; }
 """
-
-
-def mono_font() -> QtGui.QFont:
-    """A fixed-pitch font for figures, so digits line up in columns."""
-    f = QtGui.QFontDatabase.systemFont(QtGui.QFontDatabase.SystemFont.FixedFont)
-    return f
 
 
 def verdict_colour(verdict: str) -> str:

@@ -1,0 +1,287 @@
+"""The window's commands: actions, menus, toolbar and status bar, and what the
+File and Help commands do (open dialog, recent files, exports, help boxes).
+
+:class:`CommandsMixin` is mixed into :class:`~trueslope.app.window.MainWindow`;
+it holds no state of its own beyond the widgets it builds, and reads the
+window's ``store``, ``settings``, ``capture``, ``analysis`` and ``plots``.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
+
+from PySide6 import QtCore, QtGui, QtWidgets
+
+from trueslope.core.errors import TrueslopeError
+from trueslope.core.settings import MAX_TRIM_FRACTION, Settings
+
+from . import exporting, helptext
+from .banner import describe_error
+
+if TYPE_CHECKING:
+    from .plots import PlotArea
+    from .store import Store
+    from .welcome import Welcome
+
+#: Open-dialog filter: the layouts trueslope.core.io reads (any text file is tried).
+CAPTURE_FILTER = ("Captures (*.csv *.txt *.tsv *.dat *.npy *.wav);;"
+                  "Text exports (*.csv *.txt *.tsv *.dat);;All files (*)")
+
+
+class CommandsMixin:
+    """Builds and runs the window's commands; mixed into ``MainWindow`` (a ``QMainWindow``)."""
+
+    # Set by MainWindow before the build methods run.
+    store: Store
+    settings: Settings
+    capture: Any
+    analysis: Any
+    plots: PlotArea
+    welcome: Welcome
+
+    # -- construction ----------------------------------------------------------------
+
+    def _action(self, text: str, slot: Any, shortcuts: Any = (), tip: str = "",
+                checkable: bool = False) -> QtGui.QAction:
+        a = QtGui.QAction(text, self)
+        if shortcuts:
+            keys = [QtGui.QKeySequence(s) for s in (shortcuts if isinstance(shortcuts, (list, tuple)) else [shortcuts])]
+            a.setShortcuts(keys)
+        if tip:
+            a.setStatusTip(tip)
+            a.setToolTip(tip)
+        a.setCheckable(checkable)
+        a.triggered.connect(slot)
+        self.addAction(a)  # shortcuts work wherever the focus is in the window
+        return a
+
+    def _build_actions(self) -> None:
+        K = QtGui.QKeySequence.StandardKey
+        self.act_open = self._action("&Open capture…", self.open_dialog, K.Open, "Open a capture file")
+        self.act_quit = self._action("&Quit", self.close, K.Quit)
+        self.act_json = self._action("Figures as &JSON…", lambda: self._export("json"))
+        self.act_csv = self._action("Figures as &CSV…", lambda: self._export("csv"))
+        self.act_png = self._action("Plots as &PNG…", lambda: self._export("png"))
+        self.act_svg = self._action("Plots as &SVG…", lambda: self._export("svg"))
+        self.act_copy = self._action("&Copy figures", self.copy_figures, "Ctrl+Shift+C",
+                                     "Copy the summary figures to the clipboard")
+        self.act_next = self._action("&Next cycle", self.next_cycle, ["]", "PgDown"], "Show the next cycle")
+        self.act_prev = self._action("&Previous cycle", self.previous_cycle, ["[", "PgUp"],
+                                     "Show the previous cycle")
+        self.act_zoom_cycle = self._action("&Zoom to cycle", self.zoom_to_cycle, "Z",
+                                           "Zoom the trace to the shown cycle")
+        self.act_zoom_all = self._action("Zoom to &all", self.zoom_to_all, "A",
+                                         "Zoom out to the whole capture")
+        self.act_all_fits = self._action("&Fit on every cycle", self._toggle_all_fits, "F",
+                                         "Draw the fitted line over every cycle, not only the shown one",
+                                         checkable=True)
+        self.act_reset_window = self._action("&Reset window to trim", self.reset_window, (),
+                                             "Forget the dragged window; trim each ramp end instead")
+        self.act_cancel = self._action("Cancel", self.cancel, "Esc", "Stop the running load or analysis")
+        self.act_safety = self._action("Bench &safety", self.show_safety)
+        self.act_keys = self._action("&Keyboard and mouse", lambda: self._info("Keyboard", helptext.shortcuts_html()))
+        self.act_defs = self._action("Measurement &definitions", self.show_definitions)
+        self.act_about = self._action("&About trueslope", lambda: self._info("About", helptext.ABOUT_HTML))
+        self._needs_analysis = [self.act_json, self.act_csv, self.act_png, self.act_svg, self.act_copy,
+                                self.act_next, self.act_prev, self.act_zoom_cycle, self.act_zoom_all,
+                                self.act_reset_window]
+
+    def _build_menus(self) -> None:
+        mb = self.menuBar()
+        m = mb.addMenu("&File")
+        m.addAction(self.act_open)
+        self.recent_menu = m.addMenu("Open &recent")
+        self.recent_menu.aboutToShow.connect(self._fill_recent)
+        m.addSeparator()
+        ex = m.addMenu("&Export")
+        for a in (self.act_json, self.act_csv, self.act_png, self.act_svg):
+            ex.addAction(a)
+        m.addAction(self.act_copy)
+        m.addSeparator()
+        m.addAction(self.act_quit)
+        v = mb.addMenu("&View")
+        for a in (self.act_prev, self.act_next, self.act_zoom_cycle, self.act_zoom_all, self.act_all_fits):
+            v.addAction(a)
+        an = mb.addMenu("&Analysis")
+        an.addAction(self.act_reset_window)
+        an.addAction(self.act_cancel)
+        h = mb.addMenu("&Help")
+        for a in (self.act_safety, self.act_keys, self.act_defs, self.act_about):
+            h.addAction(a)
+
+    def _build_toolbar(self) -> None:
+        tb = self.addToolBar("Main")
+        tb.setObjectName("main_toolbar")
+        tb.setMovable(False)
+        tb.addAction(self.act_open)
+        tb.addSeparator()
+        tb.addWidget(QtWidgets.QLabel(" Channel "))
+        self.channel_box = QtWidgets.QComboBox()
+        self.channel_box.setToolTip("Channel to measure")
+        self.channel_box.setMinimumContentsLength(8)
+        self.channel_box.setSizeAdjustPolicy(QtWidgets.QComboBox.SizeAdjustPolicy.AdjustToContents)
+        tb.addWidget(self.channel_box)
+        tb.addWidget(QtWidgets.QLabel("  Resets from "))
+        self.sync_box = QtWidgets.QComboBox()
+        self.sync_box.setToolTip("A logic-level channel marking each reset, or the ramp itself")
+        self.sync_box.setMinimumContentsLength(10)
+        self.sync_box.setSizeAdjustPolicy(QtWidgets.QComboBox.SizeAdjustPolicy.AdjustToContents)
+        tb.addWidget(self.sync_box)
+        tb.addWidget(QtWidgets.QLabel("  Trim each end "))
+        self.trim_box = QtWidgets.QDoubleSpinBox()
+        self.trim_box.setRange(0.0, 100.0 * MAX_TRIM_FRACTION)
+        self.trim_box.setDecimals(1)
+        self.trim_box.setSingleStep(1.0)
+        self.trim_box.setSuffix(" %")
+        self.trim_box.setKeyboardTracking(False)
+        self.trim_box.setToolTip("Part of each ramp left out of the fit at each end")
+        self.trim_box.setValue(100.0 * self.settings.trim_fraction)
+        tb.addWidget(self.trim_box)
+        tb.addAction(self.act_reset_window)
+        tb.addSeparator()
+        tb.addAction(self.act_prev)
+        tb.addAction(self.act_next)
+        tb.addAction(self.act_zoom_cycle)
+        tb.addAction(self.act_zoom_all)
+        tb.addAction(self.act_all_fits)
+        self._set_channel_boxes(None)
+
+    def _build_status(self) -> None:
+        sb = self.statusBar()
+        self.status_label = QtWidgets.QLabel("")
+        sb.addWidget(self.status_label, 1)
+        self.progress = QtWidgets.QProgressBar()
+        self.progress.setRange(0, 1000)
+        self.progress.setFixedWidth(220)
+        self.progress.setTextVisible(True)
+        self.progress.setFormat("%p %")
+        self.cancel_button = QtWidgets.QPushButton("Cancel")
+        self.cancel_button.setToolTip("Stop the running load or analysis (Esc)")
+        self.cancel_button.clicked.connect(self.cancel)
+        sb.addPermanentWidget(self.progress)
+        sb.addPermanentWidget(self.cancel_button)
+        self.progress.hide()
+        self.cancel_button.hide()
+
+    def _enable_analysis_actions(self, on: bool) -> None:
+        for a in self._needs_analysis:
+            a.setEnabled(on)
+
+    # -- opening ------------------------------------------------------------------------
+
+    def open_dialog(self) -> None:
+        path, _ = QtWidgets.QFileDialog.getOpenFileName(
+            self, "Open a capture", self.store.last_folder, CAPTURE_FILTER)
+        if path:
+            self.open_file(path)
+
+    def _fill_recent(self) -> None:
+        self.recent_menu.clear()
+        files = self.store.recent_files
+        for p in files:
+            a = self.recent_menu.addAction(Path(p).name)
+            a.setToolTip(p)
+            a.setStatusTip(p)
+            a.triggered.connect(lambda _=False, path=p: self.open_file(path))
+        if files:
+            self.recent_menu.addSeparator()
+            self.recent_menu.addAction("Clear list", self._clear_recent)
+        else:
+            none = self.recent_menu.addAction("No recent captures")
+            none.setEnabled(False)
+
+    def _clear_recent(self) -> None:
+        self.store.clear_recent()
+        self.welcome.refresh([])
+
+    # -- toolbar channel boxes ---------------------------------------------------------
+
+    def _set_channel_boxes(self, capture: Any) -> None:
+        for box in (self.channel_box, self.sync_box):
+            box.blockSignals(True)
+            box.clear()
+        if capture is None:
+            self.channel_box.addItem("—", None)
+            self.sync_box.addItem("the ramp itself", None)
+        else:
+            for name in capture.channel_names:
+                self.channel_box.addItem(name, name)
+            self.sync_box.addItem("the ramp itself", None)
+            for name in capture.channel_names:
+                self.sync_box.addItem(name, name)
+            if self.analysis is not None:
+                i = self.channel_box.findData(self.analysis.channel)
+                self.channel_box.setCurrentIndex(max(i, 0))
+                sync = self.settings.sync_channel
+                if sync is not None:
+                    try:
+                        sync = capture.channel(sync)[0]
+                    except TrueslopeError:
+                        sync = None
+                j = self.sync_box.findData(sync) if sync is not None else 0
+                self.sync_box.setCurrentIndex(max(j, 0))
+        multi = capture is not None and len(capture.channel_names) > 1
+        self.channel_box.setEnabled(multi)
+        self.sync_box.setEnabled(multi)
+        for box in (self.channel_box, self.sync_box):
+            box.blockSignals(False)
+
+    # -- exports ------------------------------------------------------------------------------
+
+    def _export(self, kind: str) -> None:
+        if self.analysis is None:
+            return
+        stem = Path(self.capture.source).stem
+        filters = {"json": "JSON (*.json)", "csv": "CSV (*.csv)", "png": "PNG image (*.png)",
+                   "svg": "SVG drawing (*.svg)"}
+        suggested = str(Path(self.store.last_folder) / f"{stem}_{'figures' if kind in ('json', 'csv') else 'plots'}.{kind}")
+        path, _ = QtWidgets.QFileDialog.getSaveFileName(self, f"Export {kind.upper()}", suggested, filters[kind])
+        if path:
+            self.export_to(kind, path)
+
+    def export_to(self, kind: str, path: str) -> str:
+        """Write one export to ``path``; errors go to the banner. Returns a status line."""
+        try:
+            if kind == "json":
+                exporting.save_json(self.analysis, path)
+                note = ""
+            elif kind == "csv":
+                exporting.save_csv(self.analysis, path)
+                note = ""
+            elif kind == "png":
+                exporting.save_png(self.plots, path)
+                note = ""
+            elif kind == "svg":
+                used = exporting.save_svg(self.plots, path)
+                note = " (through Qt's SVG generator)" if used == "qt" else ""
+            else:
+                raise ValueError(f"unknown export {kind!r}")
+        except (OSError, TrueslopeError, ValueError) as exc:
+            self._show_error(f"Could not export to {Path(path).name}: {describe_error(exc)}")
+            return ""
+        text = f"Saved {Path(path).name}{note}"
+        self._status(text)
+        return text
+
+    def copy_figures(self) -> None:
+        if self.analysis is not None:
+            exporting.copy_figures(self.analysis)
+            self._status("Figures copied to the clipboard")
+
+    # -- help ------------------------------------------------------------------------------------
+
+    def _info(self, title: str, body: str) -> None:
+        box = QtWidgets.QMessageBox(self)
+        box.setWindowTitle(f"trueslope — {title}")
+        box.setTextFormat(QtCore.Qt.TextFormat.RichText)
+        box.setText(body)
+        box.setIcon(QtWidgets.QMessageBox.Icon.NoIcon)
+        box.open()
+
+    def show_safety(self) -> None:
+        self._info("Bench safety", helptext.SAFETY_HTML)
+
+    def show_definitions(self) -> None:
+        from trueslope.core.report import FIGURE_DEFINITIONS
+        self._info("Measurement definitions", helptext.definitions_html(dict(FIGURE_DEFINITIONS)))
