@@ -69,7 +69,7 @@ def test_at_least_nine_in_ten_get_the_right_signature(verdicts):
 
 @pytest.mark.parametrize("case", SHUNT_CASES)
 def test_equivalent_shunt_within_20_percent_when_capacitance_given(case):
-    from trueslope.core.context import CircuitContext
+    from trueslope.core.circuit import CircuitContext
 
     misses = []
     for bits in BITS:

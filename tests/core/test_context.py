@@ -1,6 +1,6 @@
 """Circuit context and the prototype self-check (issue 3, section 2).
 
-Check values come from REFERENCES.md (worked figures derived from the
+Check values come from SOURCES.md [loading] (worked figures derived from the
 closed forms of a current into R || C) and from numpy/scipy as references.
 """
 
@@ -13,10 +13,12 @@ import numpy as np
 import pytest
 
 from trueslope.core.analysis import analyse
-from trueslope.core.context import (CircuitContext, check_context, parse_context,
-                                    predict_ramp, probe_match)
+from trueslope.core.circuit import CircuitContext, parse_context, predict_ramp, probe_match
+from trueslope.core.cli import main as cli_main
 from trueslope.core.diagnose import diagnose
 from trueslope.core.errors import SettingsError
+from trueslope.core.report import analysis_document, likely_cause, selfcheck_summary
+from trueslope.core.selfcheck import check_context
 from trueslope.core.settings import Settings
 
 from tests.support.builders import averaged_from_model, capture_from_cycles
@@ -54,22 +56,36 @@ def test_nothing_given_is_no_context():
     assert CircuitContext().is_empty and CircuitContext(tolerance_frac=0.2).is_empty
 
 
-@pytest.mark.parametrize("kwargs, option", [
-    (dict(capacitance="47q"), "--capacitance"),
-    (dict(capacitance="-47n"), "--capacitance"),
-    (dict(current="1,2m"), "--current"),
-    (dict(capacitance="1n", probe="10M,12p,3"), "--probe"),
-    (dict(capacitance="1n", probe="10M,12pH"), "--probe"),
-    (dict(capacitance="1n", tolerance="150%"), "--tolerance"),
-    (dict(set_resistor="3.3k"), "--reference"),
-    (dict(reference="1.25"), "--set-resistor"),
-    (dict(capacitance="1n", thresholds="0.05"), "--thresholds"),
-])
-def test_bad_input_names_the_option(kwargs, option):
+BAD_INPUTS = [
+    (dict(capacitance="47q"), "capacitance", "--capacitance"),
+    (dict(capacitance="-47n"), "capacitance", "--capacitance"),
+    (dict(current="1,2m"), "current", "--current"),
+    (dict(capacitance="1n", probe="10M,12p,3"), "probe", "--probe"),
+    (dict(capacitance="1n", probe="10M,12pH"), "probe", "--probe"),
+    (dict(capacitance="1n", tolerance="150%"), "tolerance", "--tolerance"),
+    (dict(set_resistor="3.3k"), "reference", "--reference"),
+    (dict(reference="1.25"), "set_resistor", "--set-resistor"),
+    (dict(capacitance="1n", thresholds="0.05"), "thresholds", "--thresholds"),
+]
+
+
+@pytest.mark.parametrize("kwargs, field, option", BAD_INPUTS)
+def test_bad_input_names_the_field_and_never_an_option(kwargs, field, option):
     with pytest.raises(SettingsError) as err:
         parse_context(**kwargs)
-    assert option in str(err.value)
+    assert err.value.field == field
+    assert "--" not in str(err.value)  # core knows no command-line option
     assert isinstance(err.value, ValueError)
+
+
+@pytest.mark.parametrize("kwargs, field, option", BAD_INPUTS)
+def test_the_command_line_names_its_option(kwargs, field, option, tmp_path, capsys):
+    f = tmp_path / "c.csv"
+    f.write_text("t,v\n0,0\n1e-6,1\n")
+    args = [str(f)] + [f"--{k.replace('_', '-')}={v}" for k, v in kwargs.items()]
+    assert cli_main(args) == 2
+    err = capsys.readouterr().err
+    assert err.startswith(f"trueslope: {option}: ") and err.count("\n") == 1
 
 
 def test_context_to_dict_is_plain_json():
@@ -84,7 +100,7 @@ def test_context_to_dict_is_plain_json():
 # ---------------------------------------------------------------- predictions
 
 def test_predicted_ramp_matches_the_reference_worked_figures():
-    # REFERENCES.md, "Loading and probes", worked figures (derived): I = 100 uA,
+    # SOURCES.md [loading], worked figures (derived): I = 100 uA,
     # C = 1 nF, V_s = 5 V, R = 1 Mohm: T_s = 51.293 us, least-squares max 0.4296 %
     p = predict_ramp(100e-6, 1e-9, 0.0, 5.0, 1e6, window=(0.0, 1.0))
     assert p.ramp_time_s == pytest.approx(51.293e-6, rel=1e-4)
@@ -96,7 +112,7 @@ def test_predicted_ramp_matches_the_reference_worked_figures():
 
 
 def test_predicted_nonlinearity_follows_the_small_error_rule():
-    # REFERENCES.md (derived): least-squares max ~ (2/3) e_d, e_d ~ e_s / 8,
+    # SOURCES.md [sweep] (derived): least-squares max ~ (2/3) e_d, e_d ~ e_s / 8,
     # e_s = V_s / (I R); 10 Mohm instead of 1 Mohm: e_s = 0.5 %, e_d = 0.06266 %
     p = predict_ramp(100e-6, 1e-9, 0.0, 5.0, 10e6, window=(0.0, 1.0))
     assert p.nonlinearity_pct == pytest.approx(2 / 3 * 0.06266, rel=0.01)
@@ -114,10 +130,10 @@ def test_probe_cannot_hold_the_ramp_up_to_the_threshold():
 
 
 def test_probe_match_names_the_familiar_inputs():
-    assert probe_match(9.7e6).startswith("10x probe")
-    assert probe_match(1.05e6).startswith("1x probe or scope input")
+    assert probe_match(9.7e6) == "probe-10x"
+    assert probe_match(1.05e6) == "scope-input"
     assert probe_match(390e3) == "neither"
-    assert probe_match(None) == "no shunt loading found"
+    assert probe_match(None) == "none"
 
 
 # ---------------------------------------------------------------- the check
@@ -143,28 +159,28 @@ def test_issue_example_ten_megohm_on_one_microfarad_cannot_explain_a_one_percent
     d = diagnose(av, fig, nf, ctx)
     c = check_context(fig, d, ctx)
     assert 0.8 < c.measured_nonlinearity_pct < 1.5
-    # small-error rule (REFERENCES.md): e_s = V_s / (I R) = 1e-4, e_d = e_s / 8,
+    # small-error rule (SOURCES.md [sweep]): e_s = V_s / (I R) = 1e-4, e_d = e_s / 8,
     # least squares ~ (2/3) e_d over the window: 8.3e-4 % over the whole ramp, less
     # over the trimmed window; the issue's "about 0.01 %" is the slope error e_s
     assert c.probe_predicted_nonlinearity_pct < 1e-3
     assert c.probe_explains_bow is False
-    assert "does not explain" in c.summary
+    assert "does not explain" in selfcheck_summary(c, d)
     assert c.probe_match == "neither"
     json.dumps(c.to_dict(), allow_nan=False)
 
 
 def test_stated_probe_that_is_the_shunt_explains_the_bow():
-    # 1 Mohm scope input across 10 nF (REFERENCES.md: scope input about 1 Mohm)
+    # 1 Mohm scope input across 10 nF (SOURCES.md [loading]: scope input about 1 Mohm)
     cap = _shunt_case(1e6, C_F, seed=4)
     ctx = parse_context(capacitance="10n", current="100u", probe="1M")
     a = analyse(cap, Settings(context=ctx))
     c = a.context_check
-    assert c.probe_match.startswith("1x probe or scope input")
+    assert c.probe_match == "scope-input"
     assert c.probe_explains_bow is True
     assert c.probe_predicted_nonlinearity_pct == pytest.approx(
         a.figures.nonlinearity_pct, rel=0.25)
     assert all(i.verdict == "within tolerance" for i in c.items), c.items
-    assert "the probe explains the bow" in c.summary
+    assert "the probe explains the bow" in selfcheck_summary(c, a.diagnosis)
 
 
 def test_wrong_capacitance_puts_the_slope_outside_and_says_why():
@@ -174,15 +190,17 @@ def test_wrong_capacitance_puts_the_slope_outside_and_says_why():
     cap = capture_from_cycles([(T, lambda t: 0.05 + I_A / C_F * t)] * 12, T / 2000.37,
                               bits=10, noise_v=1e-3, seed=6)
     ctx = parse_context(capacitance="12n", current="100u")
-    c = analyse(cap, Settings(context=ctx)).context_check
+    a = analyse(cap, Settings(context=ctx))
+    c = a.context_check
     by = {i.name: i for i in c.items}
     assert by["slope"].verdict == "outside"
     assert by["slope"].deviation_pct == pytest.approx(20.0, abs=0.5)
-    assert "capacitance is below its marked value" in by["slope"].likely_cause
+    assert "capacitance is below its marked value" in likely_cause(by["slope"], a.diagnosis)
     assert by["ramp time"].verdict == "outside"
     assert by["ramp time"].deviation_pct == pytest.approx(100 * (1 / 1.2 - 1), abs=0.5)
     assert by["nonlinearity"].verdict == "within tolerance"
-    assert "outside" in c.summary and "slope" in c.summary
+    text = selfcheck_summary(c, a.diagnosis)
+    assert "outside" in text and "slope" in text
     # a 25 % tolerance accepts it
     ctx25 = parse_context(capacitance="12n", current="100u", tolerance="25%")
     c25 = analyse(cap, Settings(context=ctx25)).context_check
@@ -209,10 +227,11 @@ def test_only_capacitance_gives_the_implied_current():
     (item,) = [i for i in c.items if i.name == "implied current"]
     assert item.verdict == "not checked"
     assert item.measured == pytest.approx(I_A, rel=0.01)  # I = C dV/dt
-    c2 = analyse(cap, Settings(context=parse_context(current="100u"))).context_check
+    a2 = analyse(cap, Settings(context=parse_context(current="100u")))
+    c2 = a2.context_check
     (item2,) = [i for i in c2.items if i.name == "implied capacitance"]
     assert item2.measured == pytest.approx(C_F, rel=0.01)
-    assert "implied capacitance" in c2.summary
+    assert "implied capacitance" in selfcheck_summary(c2, a2.diagnosis)
 
 
 def test_falling_ramp_with_a_shunt_to_ground_checks_in_the_mirrored_frame():
@@ -238,12 +257,12 @@ def test_check_items_and_check_are_plain_json():
     cap = _shunt_case(820e3, C_F, seed=8)
     ctx = parse_context(capacitance="10n", current="100u", probe="10M,12p")
     a = analyse(cap, Settings(context=ctx))
-    doc = json.loads(json.dumps(a.to_dict(), allow_nan=False))
+    doc = json.loads(json.dumps(analysis_document(a), allow_nan=False))
     cc = doc["context_check"]
     assert {"items", "probe_match", "probe_predicted_nonlinearity_pct",
             "measured_nonlinearity_pct", "probe_explains_bow", "summary"} <= set(cc)
     for it in cc["items"]:
         assert it["verdict"] in ("within tolerance", "outside", "not checked")
         assert set(it) == {"name", "expected", "measured", "unit", "verdict",
-                           "deviation_pct", "likely_cause"}
+                           "deviation_pct", "causes", "likely_cause"}
     assert doc["diagnosis"]["signature"] == "shunt-loading"

@@ -30,7 +30,7 @@ import pytest
 from scipy import stats
 
 from tests.support.synth import exponential, sawtooth, straight
-from trueslope.core.linearity import cycle_pass
+from trueslope.core.fit import cycle_pass
 from trueslope.core.segment import segment
 
 EPS = np.finfo(float).eps
@@ -79,7 +79,7 @@ def test_every_cycle_matches_scipy_linregress(name):
     cap, seg, x, trim, window, cyc = _run(name)
     dt, t0 = cap.sample_interval_s, cap.t0_s
     assert seg.direction == ("falling" if name == "falling" else "rising")
-    assert cyc.slope.size == seg.ramp_start_s.size >= 10
+    assert cyc.slope_v_per_s.size == seg.ramp_start_s.size >= 10
     t = t0 + dt * np.arange(x.size)
     record_ssq = float(np.sum(x ** 2))
     for c, (rs, re) in enumerate(zip(seg.ramp_start_s, seg.ramp_end_s)):
@@ -93,23 +93,23 @@ def test_every_cycle_matches_scipy_linregress(name):
         resid = yw - (ref.intercept + ref.slope * tw)
         ssr = float(np.sum(resid ** 2))
         where = f"{name}, cycle {c}"
-        assert cyc.n_win[c] == tw.size, where
+        assert cyc.window_samples[c] == tw.size, where
         assert cyc.dof[c] == tw.size - 2, where
-        assert cyc.slope[c] == pytest.approx(ref.slope, rel=REL), where
+        assert cyc.slope_v_per_s[c] == pytest.approx(ref.slope, rel=REL), where
         swing = abs(ref.slope) * (b - a)
-        assert cyc.intercept[c] == pytest.approx(ref.intercept, rel=0, abs=REL * swing), where
+        assert cyc.intercept_v[c] == pytest.approx(ref.intercept, rel=0, abs=REL * swing), where
         ssr_floor = 1e3 * EPS * record_ssq
-        assert cyc.ssr[c] == pytest.approx(ssr, rel=REL, abs=ssr_floor), where
+        assert cyc.ssr_v2[c] == pytest.approx(ssr, rel=REL, abs=ssr_floor), where
         # standard error of the slope: sqrt(ssr / (n - 2) / sum (t - tbar)**2)
         se_abs = np.sqrt(ssr_floor / (tw.size - 2) / np.sum((tw - tw.mean()) ** 2))
-        assert cyc.slope_se[c] == pytest.approx(ref.stderr, rel=REL, abs=se_abs), where
+        assert cyc.slope_stderr_v_per_s[c] == pytest.approx(ref.stderr, rel=REL, abs=se_abs), where
         # residual RMS over the window, and the largest |residual| (numpy on the reference line)
-        rms = np.sqrt(cyc.ssr[c] / cyc.n_win[c])
+        rms = np.sqrt(cyc.ssr_v2[c] / cyc.window_samples[c])
         assert rms == pytest.approx(np.sqrt(ssr / tw.size), rel=REL,
                                     abs=np.sqrt(ssr_floor / tw.size)), where
-        assert cyc.peak[c] == pytest.approx(np.max(np.abs(resid)), rel=1e-6,
+        assert cyc.peak_deviation_v[c] == pytest.approx(np.max(np.abs(resid)), rel=1e-6,
                                             abs=1e-9 * swing), where
-        assert cyc.span[c] == pytest.approx(ref.slope * (b - a), rel=REL), where
+        assert cyc.fitted_span_v[c] == pytest.approx(ref.slope * (b - a), rel=REL), where
 
 
 def test_the_absolute_floor_is_far_below_the_residuals_it_guards():
@@ -121,7 +121,7 @@ def test_the_absolute_floor_is_far_below_the_residuals_it_guards():
             continue
         _, _, x, _, _, cyc = _run(name)
         floor = 1e3 * EPS * float(np.sum(x ** 2))
-        assert np.min(cyc.ssr) > 1e4 * floor, name
+        assert np.min(cyc.ssr_v2) > 1e4 * floor, name
 
 
 def test_the_noisy_capture_spans_more_than_one_block():

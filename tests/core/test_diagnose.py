@@ -15,9 +15,10 @@ import numpy as np
 import pytest
 
 from trueslope.core.analysis import analyse
-from trueslope.core.context import CircuitContext
-from trueslope.core.diagnose import (BIC_MARGIN, SIGNATURES, Diagnosis, diagnose,
-                                     strength_words)
+from trueslope.core.circuit import CircuitContext
+from trueslope.core.diagnose import BIC_MARGIN, SIGNATURES, diagnose
+from trueslope.core.report.prose import explanation, next_checks, strength_words
+from trueslope.core.results import Diagnosis
 from trueslope.core.settings import Settings
 
 from tests.support.builders import averaged_from_model, capture_from_cycles, dow_cycles
@@ -38,7 +39,7 @@ def _capture(cycles, bits=10, noise_v=1e-3, seed=0):
 
 
 def _json_ok(d: Diagnosis) -> dict:
-    doc = d.to_dict()
+    doc = dict(d.to_dict(), explanation=explanation(d), next_checks=list(next_checks(d)))
     json.dumps(doc, allow_nan=False)
     assert doc["signature"] in SIGNATURES
     return doc
@@ -47,7 +48,7 @@ def _json_ok(d: Diagnosis) -> dict:
 # ---------------------------------------------------------------- shunt loading
 
 def _shunt_cycles(r_ohm, c_f=C_F, n=12):
-    # exact solution of a current source into R || C (circuit theory; REFERENCES.md,
+    # exact solution of a current source into R || C (circuit theory; SOURCES.md [loading],
     # "Loading and probes"): V(t) = I R - (I R - V0) exp(-t / (R C))
     tau = r_ohm * c_f
     vinf = I_A * r_ohm
@@ -72,7 +73,7 @@ def test_exact_r_parallel_c_recovers_tau_and_r_within_5_percent(r_ohm):
 
 def test_equivalent_shunt_counts_the_probe_capacitance():
     # R = tau / (C + C_probe): the probe's capacitance is part of the node's C
-    # (REFERENCES.md, "Loading and probes": shunt capacitance scales the slope)
+    # (SOURCES.md [loading]: shunt capacitance scales the slope)
     cycles, tau = _shunt_cycles(1e6, c_f=C_F + 100e-12)
     ctx = CircuitContext(capacitance_f=C_F, probe_capacitance_f=100e-12)
     d = analyse(_capture(cycles, seed=3), Settings(context=ctx)).diagnosis
@@ -86,7 +87,7 @@ def test_no_capacitance_no_resistance():
     d = analyse(_capture(cycles, seed=5)).diagnosis
     assert d.signature == "shunt-loading" and d.equivalent_shunt_ohm is None
     assert d.tau_s == pytest.approx(tau, rel=0.05)
-    assert "capacitance" in d.explanation
+    assert "capacitance" in explanation(d)
 
 
 def test_falling_ramp_with_shunt_is_shunt_loading():
@@ -105,7 +106,7 @@ def test_falling_ramp_with_shunt_is_shunt_loading():
 # ---------------------------------------------------------------- dielectric absorption
 
 def test_dow_model_by_solve_ivp_is_dielectric_absorption_with_tau_within_25_percent():
-    # Dow model (P. C. Dow, 1958, from memory; REFERENCES.md): one series R-C branch
+    # Dow model (SOURCES.md [absorption], from memory): one series R-C branch
     # across C, integrated with scipy.integrate.solve_ivp. The branch's relaxation
     # time constant is the eigenvalue of the two-capacitor circuit:
     # tau = R_b (C C_b / (C + C_b)) (circuit theory).
@@ -116,8 +117,8 @@ def test_dow_model_by_solve_ivp_is_dielectric_absorption_with_tau_within_25_perc
     assert d.signature == "dielectric-absorption"
     assert d.curvature == "concave"
     assert d.tau_s == pytest.approx(tau, rel=0.25)
-    assert any("repetition rate" in c for c in d.next_checks)
-    assert any("compensation" in c for c in d.next_checks)
+    assert any("repetition rate" in c for c in next_checks(d))
+    assert any("compensation" in c for c in next_checks(d))
     _json_ok(d)
 
 
@@ -126,7 +127,7 @@ def test_absorption_strength_ranks_film_ceramic_electrolytic():
     # ramp, X7R ceramic a little curvature, aluminium electrolytic the most.
     # Dielectric-absorption fractions: polypropylene 0.05-0.1 %, X7R 2-2.5 %,
     # aluminium electrolytic 10-15 % (Wikipedia "Dielectric absorption" and "Ceramic
-    # capacitor", via REFERENCES.md). Each is modelled as Dow branches holding that
+    # capacitor", SOURCES.md [absorption]). Each is modelled as Dow branches holding that
     # fraction of C, split 50/30/20 % over time constants of 15, 90 and 240 us
     # (the same for all three: an assumption of this test, not a datum).
     strengths, nonlin = [], []
@@ -147,7 +148,7 @@ def test_absorption_strength_ranks_film_ceramic_electrolytic():
 
 def test_capacitance_falling_linearly_with_voltage_is_voltage_coefficient():
     # C = C0 (1 - beta V) at constant current, solved exactly (charge balance,
-    # REFERENCES.md "Voltage coefficient"): C0 [(V - V0) - beta (V^2 - V0^2) / 2] = I t
+    # SOURCES.md [voltage-coefficient]): C0 [(V - V0) - beta (V^2 - V0^2) / 2] = I t
     beta, v0, v1 = 0.004, 0.05, 5.0
     T = C_F * ((v1 - v0) - beta * (v1 ** 2 - v0 ** 2) / 2) / I_A
 
@@ -161,7 +162,7 @@ def test_capacitance_falling_linearly_with_voltage_is_voltage_coefficient():
     assert d.curvature == "convex"
     # the slope rises by beta per volt, referred to the ramp's start: beta / (1 - beta V0)
     assert d.voltage_coefficient_per_v == pytest.approx(beta / (1 - beta * v0), rel=0.15)
-    assert any("C0G" in c for c in d.next_checks)
+    assert any("C0G" in c for c in next_checks(d))
     _json_ok(d)
 
 
@@ -181,7 +182,7 @@ def test_straight_ramp_is_linear_with_words():
     cycles = [(V_HI * C_F / I_A, lambda t: V_LO + I_A / C_F * t)] * 12
     d = analyse(_capture(cycles, bits=8, noise_v=5e-3, seed=1)).diagnosis
     assert d.signature == "linear" and d.curvature == "none"
-    assert d.strength < 1 and d.strength_words.startswith("not above the noise")
+    assert d.strength < 1 and strength_words(d.strength).startswith("not above the noise")
     assert d.tau_s is None and d.equivalent_shunt_ohm is None
     _json_ok(d)
 
@@ -193,24 +194,24 @@ def test_ripple_on_the_ramp_is_unclassified_and_described():
                                       T, bins=1500, sigma_v=2e-4, seed=3)
     d = diagnose(av, fig, nf)
     assert d.signature == "unclassified"
-    assert "wavy" in d.explanation or "S-shaped" in d.explanation
-    assert "None of shunt loading" in d.explanation
+    assert "wavy" in explanation(d) or "S-shaped" in explanation(d)
+    assert "None of shunt loading" in explanation(d)
     assert d.unexplained_pct is not None and d.unexplained_pct > fig.nonlinearity_floor_pct
     _json_ok(d)
 
 
 def test_slope_starting_low_is_not_called_absorption():
     # an early relaxation of the wrong sign (slope low after the reset, as an
-    # under-compensated probe gives; REFERENCES.md "mis-compensated 10x probe")
+    # under-compensated probe gives; SOURCES.md [probe-comp])
     T = 1e-3
     av, fig, nf = averaged_from_model(
         lambda t: 4000 * t - 0.05 * (1 - np.exp(-t / (0.08 * T))), T, bins=1500,
         sigma_v=5e-4, seed=8)
     d = diagnose(av, fig, nf)
     assert d.signature == "unclassified"
-    assert "starts low" in d.explanation
+    assert "starts low" in explanation(d)
     assert d.tau_s == pytest.approx(0.08 * T, rel=0.1)
-    assert any("compensation" in c for c in d.next_checks)
+    assert any("compensation" in c for c in next_checks(d))
 
 
 def test_noise_free_exact_data_is_classified():

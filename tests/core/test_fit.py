@@ -8,7 +8,7 @@ import pytest
 from scipy import stats
 
 from trueslope.core.errors import AnalysisError
-from trueslope.core.fit import fit_line, terminal_line
+from trueslope.core.fit import fit_line
 
 
 @pytest.fixture
@@ -63,8 +63,3 @@ def test_too_few_points_is_a_typed_error():
         fit_line(np.array([0.0, 1.0]), np.array([0.0, 1.0]))
     with pytest.raises(ValueError):  # the family also subclasses ValueError
         fit_line(np.zeros(5), np.arange(5.0))
-
-
-def test_terminal_line_through_end_points():
-    b, a = terminal_line(1.0, 2.0, 3.0, 6.0)
-    assert (b, a) == (2.0, 0.0)
