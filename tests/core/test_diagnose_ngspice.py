@@ -1,7 +1,7 @@
 """Dielectric absorption simulated live by ngspice (an independent circuit simulator).
 
 One Dow-model branch (series R-C across the timing capacitor; P. C. Dow, 1958,
-from memory; REFERENCES.md "Dielectric absorption") charged by 100 uA and reset
+from memory; SOURCES.md [absorption]) charged by 100 uA and reset
 by a hysteretic switch. The relaxation time constant of the two-capacitor
 circuit is ``R_b C C_b / (C + C_b)`` (circuit theory: the eigenvalue of the
 branch equations); the diagnosis must call it ``dielectric-absorption`` and

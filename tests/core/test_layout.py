@@ -12,6 +12,7 @@ edges, so the reader knows which circle is only on paper). Modules are named as 
 from __future__ import annotations
 
 import ast
+import re
 from pathlib import Path
 
 import pytest
@@ -265,3 +266,37 @@ def test_reader_sees_a_forbidden_import_inside_a_function(tmp_path):
 def test_line_limit_counts_lines(tmp_path, n, too_long):
     files = _tree(tmp_path, {"core/__init__.py": "", "core/m.py": "x = 1\n" * n})
     assert (len(files["trueslope.core.m"].read_text().splitlines()) > MAX_LINES) is too_long
+
+
+# ---------------------------------------------------------------- sources
+
+SOURCES = ROOT / "core" / "SOURCES.md"
+CITATION = re.compile(r"SOURCES\.md\s*\[([a-z0-9-]+)\]")
+
+
+def _cited_files() -> list[Path]:
+    out = []
+    for folder in ("core", "app", "tests", "benchmarks", "sample_captures", "packaging"):
+        for p in (ROOT / folder).rglob("*"):
+            if p.suffix in (".py", ".md", ".cir") and p != SOURCES and ".venv" not in p.parts:
+                out.append(p)
+    return out + [ROOT / "README.md", ROOT / "DEVELOPERS.md"]
+
+
+def test_every_citation_names_an_entry_of_the_projects_own_sources():
+    keys = set(re.findall(r"^## \[([a-z0-9-]+)\]", SOURCES.read_text(encoding="utf-8"), re.M))
+    assert {"ieee181", "ieee1241", "sweep", "loading", "bic"} <= keys
+    cited: dict[str, set[str]] = {}
+    for p in _cited_files():
+        for key in CITATION.findall(p.read_text(encoding="utf-8", errors="replace")):
+            cited.setdefault(key, set()).add(str(p.relative_to(ROOT)))
+    unknown = {k: sorted(v) for k, v in cited.items() if k not in keys}
+    assert not unknown, f"citations of keys missing from core/SOURCES.md: {unknown}"
+    assert len(cited) >= 8  # the reader found the citations
+
+
+def test_nothing_cites_a_file_outside_the_repository():
+    sheet = "REFERENCES" + ".md"  # spelled apart so this test does not find itself
+    outside = [str(p.relative_to(ROOT)) for p in _cited_files()
+               if sheet in p.read_text(encoding="utf-8", errors="replace")]
+    assert not outside, f"these cite a reference sheet outside the repository: {outside}"

@@ -2,7 +2,7 @@
 
 Reference: IEEE Std 181 (transitions, pulses and related waveforms): the
 histogram is split at the midpoint of its occupied range and each state level
-is the mode (or mean) of its half (from memory; see shared REFERENCES.md).
+is the mode (or mean) of its half (from memory; SOURCES.md [ieee181]).
 """
 
 import numpy as np

@@ -46,7 +46,7 @@ def test_adc_step_and_noise_detected(straight_8bit):
 
 def test_bowed_ramp_above_the_floor_is_measured_through_the_noise():
     # y = 0.05 exponential sweep: least-squares nonlinearity ~ (2/3) e_d, e_d ~ e_s/8
-    # (REFERENCES.md, derived); measured noiseless first, then at 8 bits with noise
+    # (SOURCES.md [sweep], derived); measured noiseless first, then at 8 bits with noise
     clean = analyse(sawtooth(exponential(0.05), cycles=16, samples_per_ramp=1000.3)).figures
     noisy = analyse(sawtooth(exponential(0.05), cycles=16, samples_per_ramp=1000.3, bits=8,
                              noise_v=2.5e-3, seed=3)).figures

@@ -5,8 +5,8 @@ Sources:
   time-base generators: definitions of the slope, displacement and
   transmission errors (from memory, agreeing with course notes), and the
   small-error relations e_d ~ e_s/8, e_t ~ e_s/2 for an exponential sweep.
-- Exact values for the exponential sweep from the closed forms in the shared
-  REFERENCES.md (derived): y = V_s/V, x = -ln(1-y), e_s = y,
+- Exact values for the exponential sweep from the closed forms in
+  SOURCES.md [sweep] (derived): y = V_s/V, x = -ln(1-y), e_s = y,
   e_t = 1 - (1 - e^-x)/x, e_d = (1/y)(1 - y/x) - ln(x/y)/x.
 """
 
@@ -30,7 +30,7 @@ def exact_errors(y):
 
 
 def test_closed_forms_reproduce_the_reference_sheet_values():
-    # REFERENCES.md, y = 0.1: e_s = 0.100000, e_d = 0.013168, e_t = 0.050878
+    # SOURCES.md [sweep], y = 0.1: e_s = 0.100000, e_d = 0.013168, e_t = 0.050878
     e_s, e_d, e_t = exact_errors(0.1)
     assert (e_s, round(e_d, 6), round(e_t, 6)) == (0.1, 0.013168, 0.050878)
 
@@ -44,7 +44,7 @@ def test_exponential_sweep_errors(y):
     assert f.slope_error_pct == pytest.approx(100 * e_s, rel=0.01)
     assert f.displacement_error_pct == pytest.approx(100 * e_d, rel=0.01)
     assert f.transmission_error_pct == pytest.approx(100 * e_t, rel=0.015)
-    # the terminal-based INL equals the displacement error (REFERENCES.md, derived)
+    # the terminal-based INL equals the displacement error (SOURCES.md [sweep], derived)
     assert f.terminal_nonlinearity_pct == pytest.approx(100 * e_d, rel=0.01)
     # least-squares max residual ~ (2/3) e_d for a near-parabolic bow: y = 0.1 -> 0.8871 %
     if y == 0.1:
