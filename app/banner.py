@@ -6,21 +6,25 @@ Errors stay until dismissed or replaced; an optional button offers the next step
 from __future__ import annotations
 
 from pathlib import Path
-from typing import Any
+from typing import Callable
 
 from PySide6 import QtCore, QtWidgets
 
-from trueslope.core.errors import TrueslopeError
+from trueslope.core.errors import SettingsError, TrueslopeError
 
 from . import theme
+from .fields import settings_message
 
 
 def describe_error(exc: BaseException) -> str:
-    """A one-line message for the banner: our errors read well as they are."""
+    """A one-line message for the banner: our errors read well as they are; a settings
+    error is prefixed with the label of the window's field it is about."""
+    if isinstance(exc, SettingsError):
+        return settings_message(exc)
     if isinstance(exc, TrueslopeError):
         return str(exc)
     if isinstance(exc, OSError):
-        name = Path(exc.filename).name if getattr(exc, "filename", None) else "the file"
+        name = Path(exc.filename).name if exc.filename else "the file"
         return f"{name}: {exc.strerror or exc}"
     if isinstance(exc, MemoryError):
         return "not enough memory to hold this capture"
@@ -48,7 +52,7 @@ class MessageBanner(QtWidgets.QFrame):
         lay.addWidget(self.label, 1)
         lay.addWidget(self.action)
         lay.addWidget(self.close_button)
-        self._callback: Any = None
+        self._callback: Callable[[], None] | None = None
         self.action.clicked.connect(self._act)
         self.kind = ""
         self.hide()
@@ -59,7 +63,7 @@ class MessageBanner(QtWidgets.QFrame):
                            f"border-radius: 4px; }} QFrame#banner QLabel {{ color: {fg}; }}")
 
     def show_message(self, text: str, kind: str = "error", action: str | None = None,
-                     callback: Any = None) -> None:
+                     callback: Callable[[], None] | None = None) -> None:
         """Show ``text``; ``kind`` is ``"error"`` or ``"info"``; an optional button runs ``callback``."""
         self.kind = kind
         self._style(theme.BANNER_ERROR if kind == "error" else theme.BANNER_INFO)

@@ -8,8 +8,9 @@ window's ``store``, ``settings``, ``capture``, ``analysis`` and ``plots``.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from pathlib import Path
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Any, Callable
 
 from PySide6 import QtCore, QtGui, QtWidgets
 
@@ -18,8 +19,12 @@ from trueslope.core.settings import MAX_TRIM_FRACTION, Settings
 
 from . import exporting, helptext
 from .banner import describe_error
+from .fields import FIELD_LABELS
 
 if TYPE_CHECKING:
+    from trueslope.core.capture import Capture
+    from trueslope.core.results import Analysis
+
     from .plots import PlotArea
     from .store import Store
     from .welcome import Welcome
@@ -35,14 +40,15 @@ class CommandsMixin:
     # Set by MainWindow before the build methods run.
     store: Store
     settings: Settings
-    capture: Any
-    analysis: Any
+    capture: Capture | None
+    analysis: Analysis | None
     plots: PlotArea
     welcome: Welcome
 
     # -- construction ----------------------------------------------------------------
 
-    def _action(self, text: str, slot: Any, shortcuts: Any = (), tip: str = "",
+    def _action(self, text: str, slot: Callable[..., Any],
+                shortcuts: str | QtGui.QKeySequence.StandardKey | Sequence[str] = (), tip: str = "",
                 checkable: bool = False) -> QtGui.QAction:
         a = QtGui.QAction(text, self)
         if shortcuts:
@@ -128,7 +134,7 @@ class CommandsMixin:
         self.sync_box.setMinimumContentsLength(10)
         self.sync_box.setSizeAdjustPolicy(QtWidgets.QComboBox.SizeAdjustPolicy.AdjustToContents)
         tb.addWidget(self.sync_box)
-        tb.addWidget(QtWidgets.QLabel("  Trim each end "))
+        tb.addWidget(QtWidgets.QLabel(f"  {FIELD_LABELS['trim']} "))
         self.trim_box = QtWidgets.QDoubleSpinBox()
         self.trim_box.setRange(0.0, 100.0 * MAX_TRIM_FRACTION)
         self.trim_box.setDecimals(1)
@@ -195,9 +201,26 @@ class CommandsMixin:
         self.store.clear_recent()
         self.welcome.refresh([])
 
+    # -- view -----------------------------------------------------------------------------
+
+    def next_cycle(self) -> None:
+        self.show_cycle(self.plots.shown + 1)
+
+    def previous_cycle(self) -> None:
+        self.show_cycle(self.plots.shown - 1)
+
+    def zoom_to_cycle(self) -> None:
+        self.plots.zoom_to_cycle()
+
+    def zoom_to_all(self) -> None:
+        self.plots.zoom_to_all()
+
+    def _toggle_all_fits(self, on: bool) -> None:
+        self.plots.set_all_fits(on)
+
     # -- toolbar channel boxes ---------------------------------------------------------
 
-    def _set_channel_boxes(self, capture: Any) -> None:
+    def _set_channel_boxes(self, capture: Capture | None) -> None:
         for box in (self.channel_box, self.sync_box):
             box.blockSignals(True)
             box.clear()

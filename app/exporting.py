@@ -1,7 +1,10 @@
 """Exports from the window: figures as JSON and CSV, plots as PNG and SVG, the clipboard.
 
-The texts come from :mod:`trueslope.core.report`; this module only writes them
-and renders the plots.
+The texts come from :mod:`trueslope.core.report`: the JSON document is
+:func:`~trueslope.core.report.export.analysis_document`, the CSV table
+:func:`~trueslope.core.report.export.figures_csv` (its cells neutralised by
+``safe_cell``), the clipboard text the terminal's summary. This module only
+writes them and renders the plots.
 
 pyqtgraph's own SVG exporter fails on plot curves in pyqtgraph 0.14 with the
 Qt 6 releases we use: Qt now writes path coordinates separated by spaces, and
@@ -15,25 +18,30 @@ from __future__ import annotations
 
 import os
 import xml.etree.ElementTree as ET
+import json
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING
 
 from PySide6 import QtCore, QtGui, QtSvg, QtWidgets
 
-
-def save_json(analysis: Any, path: str | os.PathLike[str]) -> None:
-    """Write the analysis as the command line's JSON document."""
-    from trueslope.core.report import to_json
-    Path(path).write_text(to_json(analysis), encoding="utf-8")
+if TYPE_CHECKING:
+    from trueslope.core.results import Analysis
 
 
-def save_csv(analysis: Any, path: str | os.PathLike[str]) -> None:
-    """Write the figures as CSV."""
-    from trueslope.core.report import figures_csv
+def save_json(analysis: Analysis, path: str | os.PathLike[str]) -> None:
+    """Write the analysis as the command line's JSON document (strict JSON: no NaN)."""
+    from trueslope.core.report.export import analysis_document
+    text = json.dumps(analysis_document(analysis), indent=2, allow_nan=False)
+    Path(path).write_text(text, encoding="utf-8")
+
+
+def save_csv(analysis: Analysis, path: str | os.PathLike[str]) -> None:
+    """Write the summary figures as CSV (SI values; text cells safe for a spreadsheet)."""
+    from trueslope.core.report.export import figures_csv
     Path(path).write_text(figures_csv(analysis), encoding="utf-8", newline="")
 
 
-def copy_figures(analysis: Any, clipboard: QtGui.QClipboard | None = None) -> str:
+def copy_figures(analysis: Analysis, clipboard: QtGui.QClipboard | None = None) -> str:
     """Put the summary figures on the clipboard as plain text.
 
     Plain text only: handing the clipboard a QMimeData made in Python (to add

@@ -20,14 +20,22 @@ import itertools
 import threading
 import time
 from dataclasses import dataclass, field
-from typing import Any, Callable
+from typing import TYPE_CHECKING, Callable, TypeVar, Union
 
 import numpy as np
 from PySide6 import QtCore
 
 from trueslope.core.capture import Capture
-from trueslope.core.errors import Cancelled
+from trueslope.core.errors import (AnalysisError, Cancelled, ChannelNotFoundError,
+                                   SettingsError)
 from trueslope.core.settings import Settings
+
+if TYPE_CHECKING:
+    from trueslope.core.results import Analysis
+
+#: ``progress(fraction)`` and ``cancel() -> bool``, as the core takes them.
+ProgressFn = Callable[[float], None]
+CancelFn = Callable[[], bool]
 
 #: Smallest change of the progress fraction worth a signal, and the longest
 #: quiet time between two progress signals (seconds): the core may report
@@ -80,6 +88,11 @@ class AnalyseRequest:
     reason: str = ""
 
 
+#: Every request the runner takes.
+Request = Union[OpenRequest, AnalyseRequest]
+R = TypeVar("R", OpenRequest, AnalyseRequest)
+
+
 @dataclass(frozen=True)
 class TraceData:
     """What the trace view draws, prepared off the GUI thread.
@@ -120,7 +133,7 @@ class JobResult:
     """
 
     capture: Capture
-    analysis: Any
+    analysis: Analysis | None
     trace: TraceData | None
     analysis_error: Exception | None = None
     elapsed_s: float = 0.0
@@ -132,43 +145,50 @@ def trace_for(capture: Capture, channel: str) -> TraceData:
     return TraceData(capture.time_s(), v, bool(np.isfinite(v).all()))
 
 
-def run_open(req: OpenRequest, progress: Callable[[float], None],
-             cancel: Callable[[], bool]) -> JobResult:
+#: Errors raised after the file was read: the capture is fine, this channel
+#: (or these settings) cannot be measured.
+_MEASURE_ERRORS = (AnalysisError, SettingsError, ChannelNotFoundError)
+
+#: What a job does with its request: ``fn(request, progress, cancel) -> JobResult``.
+JobFn = Callable[[R, ProgressFn, CancelFn], JobResult]
+
+
+def run_open(req: OpenRequest, progress: ProgressFn, cancel: CancelFn) -> JobResult:
     """Read and measure a file (runs on a worker thread).
 
-    Reading takes the first 70 % of the progress bar, measuring the rest. A
-    capture that reads but cannot be measured is returned with the error, so
-    the window can offer another channel; errors of the read are raised.
+    One call to :func:`trueslope.core.analysis.load_and_analyse`, which splits
+    the progress between reading and measuring. A capture that reads but
+    cannot be measured is returned with the error, so the window can offer
+    another channel; errors of the read are raised.
     """
-    from trueslope.core.io import load_capture
+    from trueslope.core.analysis import load_and_analyse
 
     t0 = time.perf_counter()
-    capture = load_capture(req.path, sample_interval_s=req.sample_interval_s,
-                           progress=lambda f: progress(0.7 * f), cancel=cancel)
-    if cancel():
-        raise Cancelled(f"reading {req.path} was cancelled")
-    return _measure(capture, req.settings, progress, cancel, 0.7, t0)
-
-
-def run_analyse(req: AnalyseRequest, progress: Callable[[float], None],
-                cancel: Callable[[], bool]) -> JobResult:
-    """Measure a loaded capture again (runs on a worker thread)."""
-    return _measure(req.capture, req.settings, progress, cancel, 0.0, time.perf_counter())
-
-
-def _measure(capture: Capture, settings: Settings, progress: Callable[[float], None],
-             cancel: Callable[[], bool], start: float, t0: float) -> JobResult:
-    from trueslope.core.analysis import analyse
-    from trueslope.core.errors import TrueslopeError
-
-    span = 1.0 - start
     try:
-        analysis = analyse(capture, settings, progress=lambda f: progress(start + span * f),
-                           cancel=cancel)
-    except Cancelled:
-        raise
-    except TrueslopeError as exc:
+        capture, analysis = load_and_analyse(req.path, req.settings, req.sample_interval_s,
+                                             progress=progress, cancel=cancel)
+    except _MEASURE_ERRORS as exc:
+        # load_and_analyse keeps the capture to itself when the measuring fails;
+        # read it again (only in this case) so the window can offer the others.
+        from trueslope.core.io import load_capture
+        capture = load_capture(req.path, sample_interval_s=req.sample_interval_s, cancel=cancel)
         return JobResult(capture, None, None, exc, time.perf_counter() - t0)
+    return _answer(capture, analysis, progress, t0)
+
+
+def run_analyse(req: AnalyseRequest, progress: ProgressFn, cancel: CancelFn) -> JobResult:
+    """Measure a loaded capture again (runs on a worker thread)."""
+    from trueslope.core.analysis import analyse
+
+    t0 = time.perf_counter()
+    try:
+        analysis = analyse(req.capture, req.settings, progress=progress, cancel=cancel)
+    except _MEASURE_ERRORS as exc:
+        return JobResult(req.capture, None, None, exc, time.perf_counter() - t0)
+    return _answer(req.capture, analysis, progress, t0)
+
+
+def _answer(capture: Capture, analysis: Analysis, progress: ProgressFn, t0: float) -> JobResult:
     trace = trace_for(capture, analysis.channel)
     progress(1.0)
     return JobResult(capture, analysis, trace, None, time.perf_counter() - t0)
@@ -184,7 +204,7 @@ class _Signals(QtCore.QObject):
 
 
 class _Job(QtCore.QRunnable):
-    def __init__(self, request: Any, fn: Callable[..., Any], flag: threading.Event,
+    def __init__(self, request: R, fn: JobFn[R], flag: threading.Event,
                  signals: _Signals) -> None:
         super().__init__()
         self.request = request
@@ -221,7 +241,7 @@ class _Job(QtCore.QRunnable):
 
 @dataclass
 class _Running:
-    request: Any
+    request: Request
     flag: threading.Event
     signals: _Signals = field(repr=False)
 
@@ -256,7 +276,7 @@ class JobRunner(QtCore.QObject):
         return next(self._ids)
 
     @property
-    def current(self) -> Any:
+    def current(self) -> Request | None:
         """The request whose answer the window is waiting for, or None."""
         run = self._running.get(self._current) if self._current is not None else None
         return None if run is None else run.request
@@ -265,7 +285,7 @@ class JobRunner(QtCore.QObject):
     def busy(self) -> bool:
         return self.current is not None
 
-    def submit(self, request: Any, fn: Callable[..., Any]) -> None:
+    def submit(self, request: R, fn: JobFn[R]) -> None:
         """Start ``fn(request, progress, cancel)`` on the pool; it supersedes the current one."""
         was_busy = self.busy
         if self._current is not None and self._current in self._running:
@@ -299,10 +319,10 @@ class JobRunner(QtCore.QObject):
 
     # -- answers from the workers (GUI thread) --------------------------------
 
-    def _is_current(self, request: Any) -> bool:
+    def _is_current(self, request: Request) -> bool:
         return request.id == self._current
 
-    def _retire(self, request: Any) -> bool:
+    def _retire(self, request: Request) -> bool:
         run = self._running.pop(request.id, None)
         if run is not None:
             run.signals.deleteLater()
@@ -314,18 +334,18 @@ class JobRunner(QtCore.QObject):
             self.dropped += 1
         return current
 
-    def _on_progress(self, request: Any, fraction: float) -> None:
+    def _on_progress(self, request: Request, fraction: float) -> None:
         if self._is_current(request):
             self.progress.emit(request, fraction)
 
-    def _on_done(self, request: Any, result: Any) -> None:
+    def _on_done(self, request: Request, result: JobResult) -> None:
         if self._retire(request):
             self.finished.emit(request, result)
 
-    def _on_failed(self, request: Any, exc: Any) -> None:
+    def _on_failed(self, request: Request, exc: BaseException) -> None:
         if self._retire(request):
             self.failed.emit(request, exc)
 
-    def _on_cancelled(self, request: Any) -> None:
+    def _on_cancelled(self, request: Request) -> None:
         if self._retire(request):
             self.cancelled.emit(request)

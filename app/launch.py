@@ -65,20 +65,25 @@ def launch(path: str | None = None, channel: str | None = None, sync_channel: st
         Exit status: 0, 1 when a screenshot run could not open or measure the
         capture (the picture is saved all the same), 2 for a bad option.
     """
-    from trueslope.core.errors import TrueslopeError
+    from trueslope.core.cli import error_line
+    from trueslope.core.errors import SettingsError, TrueslopeError
     from trueslope.core.settings import Settings
 
     interval_s = None
     try:
         if sample_interval is not None:
             from trueslope.core.units import parse_si
-            interval_s = float(parse_si(sample_interval))
+            try:
+                interval_s = float(parse_si(sample_interval))
+            except SettingsError as exc:
+                raise SettingsError(exc.message, "sample_interval") from None
             if not interval_s > 0:
-                raise ValueError(f"the sample interval must be positive, got {sample_interval}")
+                raise SettingsError(f"must be positive, got {sample_interval}", "sample_interval")
         if trim is not None:
             Settings(trim_fraction=trim)
-    except (TrueslopeError, ValueError) as exc:
-        print(f"trueslope open: {exc}", file=sys.stderr)
+    except TrueslopeError as exc:
+        # A terminal message: it names the command line's option, as `analyze` does.
+        print(f"trueslope open: {error_line(exc)}", file=sys.stderr)
         return 2
     if screenshot and _headless() and not os.environ.get("QT_QPA_PLATFORM"):
         os.environ["QT_QPA_PLATFORM"] = "offscreen"

@@ -17,7 +17,7 @@ state before it has a view.
 from __future__ import annotations
 
 import math
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 import pyqtgraph as pg
@@ -25,6 +25,9 @@ from PySide6 import QtCore, QtGui
 
 from . import theme
 from .jobs import TraceData
+
+if TYPE_CHECKING:
+    from trueslope.core.results import Analysis
 
 #: Width of the left and right axes, pixels: fixed so that the two plots'
 #: time axes line up exactly.
@@ -117,7 +120,7 @@ class PlotArea(pg.GraphicsLayoutWidget):
         super().__init__(parent)
         self.setBackground(theme.PLOT_BACKGROUND)
         self.setMinimumSize(420, 320)
-        self._analysis: Any = None
+        self._analysis: Analysis | None = None
         self._shown = 0
         self._all_fits = False
         self._placing_band = False
@@ -250,7 +253,7 @@ class PlotArea(pg.GraphicsLayoutWidget):
         self.trace_curve.setSkipFiniteCheck(trace.all_finite)
         self.trace_curve.setData(trace.time_s, trace.voltage_v, connect="all" if trace.all_finite else "finite")
 
-    def set_analysis(self, analysis: Any, shown: int = 0, all_fits: bool | None = None) -> None:
+    def set_analysis(self, analysis: Analysis, shown: int = 0, all_fits: bool | None = None) -> None:
         """Draw the fit, the band and the residual of ``analysis`` at cycle ``shown``."""
         self._analysis = analysis
         if all_fits is not None:
@@ -427,7 +430,7 @@ def _key(entries: list[tuple[str, Any, str]]) -> str:
     return "&nbsp;&nbsp;&nbsp;&nbsp;".join(parts)
 
 
-def cycle_span(analysis: Any, i: int) -> tuple[float, float]:
+def cycle_span(analysis: Analysis, i: int) -> tuple[float, float]:
     """Start of cycle ``i``'s ramp and end of its retrace, absolute seconds."""
     seg = analysis.segmentation
     start = float(seg.ramp_start_s[i])
@@ -438,7 +441,7 @@ def cycle_span(analysis: Any, i: int) -> tuple[float, float]:
     return start, end
 
 
-def cycle_view(analysis: Any, i: int) -> tuple[float, float]:
+def cycle_view(analysis: Analysis, i: int) -> tuple[float, float]:
     """Time range that shows cycle ``i`` with a little of its neighbours, seconds."""
     start, end = cycle_span(analysis, i)
     pad = 0.06 * (end - start)

@@ -15,7 +15,7 @@ in :class:`~trueslope.app.commands.CommandsMixin`.
 from __future__ import annotations
 
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any, Callable
 
 from PySide6 import QtCore, QtGui, QtWidgets
 
@@ -25,11 +25,17 @@ from trueslope.core.settings import Settings
 from . import theme
 from .banner import MessageBanner, describe_error
 from .commands import CommandsMixin
-from .jobs import AnalyseRequest, JobResult, JobRunner, OpenRequest, run_analyse, run_open
+from .jobs import (AnalyseRequest, JobResult, JobRunner, OpenRequest, Request, TraceData,
+                   run_analyse, run_open)
 from .panels import CapturePanel, CycleTable, FiguresPanel, FindingsPanel
 from .plots import PlotArea, cycle_view
 from .store import Store
 from .welcome import Welcome
+
+if TYPE_CHECKING:
+    from trueslope.core.capture import Capture
+    from trueslope.core.circuit import CircuitContext
+    from trueslope.core.results import Analysis
 
 
 class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
@@ -58,9 +64,9 @@ class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
         super().__init__()
         self.store = store or Store()
         self.runner = JobRunner(self)
-        self.capture: Any = None
-        self.analysis: Any = None
-        self.trace: Any = None
+        self.capture: Capture | None = None
+        self.analysis: Analysis | None = None
+        self.trace: TraceData | None = None
         self.path: str | None = None
         self.settings = Settings(trim_fraction=self.store.trim_fraction)
         self.sample_interval_s: float | None = None
@@ -181,7 +187,7 @@ class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
             settings = Settings(trim_fraction=self.trim_box.value() / 100.0, channel=channel,
                                 sync_channel=sync_channel, context=self.settings.context)
         except TrueslopeError as exc:
-            self._show_error(str(exc))
+            self._show_error(describe_error(exc))
             return
         req = OpenRequest(self.runner.new_id(), str(path), settings, self.sample_interval_s)
         self._status(f"Reading {Path(path).name}…")
@@ -217,7 +223,7 @@ class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
 
     # -- re-measuring -----------------------------------------------------------------------
 
-    def reanalyse(self, reason: str, capture: Any = None, **changes: Any) -> None:
+    def reanalyse(self, reason: str, capture: Capture | None = None, **changes: Any) -> None:
         """Measure the loaded capture again with some settings changed (no file is read)."""
         capture = capture if capture is not None else self.capture
         if capture is None:
@@ -232,7 +238,7 @@ class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
         try:
             settings = self.settings.with_(**changes)
         except TrueslopeError as exc:
-            self._show_error(str(exc))
+            self._show_error(describe_error(exc))
             self.plots.show_cycle(self.plots.shown)
             return
         req = AnalyseRequest(self.runner.new_id(), capture, settings, reason)
@@ -242,7 +248,7 @@ class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
     def _on_band_moved(self, start_s: float, end_s: float) -> None:
         self.reanalyse("window moved", window_s=(start_s, end_s))
 
-    def _on_context(self, context: Any) -> None:
+    def _on_context(self, context: CircuitContext | None) -> None:
         self.settings = self.settings.with_(context=context)
         self.reanalyse("circuit context edited", context=context)
 
@@ -280,10 +286,10 @@ class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
         if busy:
             self.progress.setValue(0)
 
-    def _on_progress(self, _req: Any, fraction: float) -> None:
+    def _on_progress(self, _req: Request, fraction: float) -> None:
         self.progress.setValue(int(round(1000 * min(max(fraction, 0.0), 1.0))))
 
-    def _on_finished(self, req: Any, result: JobResult) -> None:
+    def _on_finished(self, req: Request, result: JobResult) -> None:
         if result.analysis is None:
             self._measure_failed(req, result)
             return
@@ -299,8 +305,9 @@ class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
         self._pending_path = None
         self.capture = result.capture
         self.settings = req.settings
-        self._commit(result, new_capture or self.trace is None or
-                     result.analysis.channel != getattr(self.analysis, "channel", None))
+        old_channel = self.analysis.channel if self.analysis is not None else None
+        self._commit(result, new_capture or self.trace is None
+                     or result.analysis.channel != old_channel)
         if self.banner.kind == "error":
             self.banner.dismiss()
         self._status(f"{Path(self.capture.source).name}: measured in {result.elapsed_s:.2f} s"
@@ -309,6 +316,7 @@ class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
 
     def _commit(self, result: JobResult, redraw_trace: bool) -> None:
         a = result.analysis
+        assert a is not None  # only measured answers are committed
         old = self.analysis
         fresh = redraw_trace
         self.analysis = a
@@ -334,13 +342,13 @@ class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
             self.plots.zoom_to_cycle()
 
     @staticmethod
-    def _first_cycle(a: Any) -> int:
+    def _first_cycle(a: Analysis) -> int:
         for i, c in enumerate(a.cycles):
             if not c.outlier:
                 return i
         return 0
 
-    def _measure_failed(self, req: Any, result: JobResult) -> None:
+    def _measure_failed(self, req: Request, result: JobResult) -> None:
         exc = result.analysis_error
         msg = describe_error(exc) if exc is not None else "the capture could not be measured"
         name = Path(result.capture.source).name
@@ -348,7 +356,8 @@ class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
             # A newly read file that cannot be measured: keep what is open, and
             # offer the other channels if there are any.
             self._pending = result
-            self._pending_path = getattr(req, "path", None) or self._pending_path
+            if isinstance(req, OpenRequest):
+                self._pending_path = req.path
             n = len(result.capture.channel_names)
             keep = " The capture already open stays open." if self.capture is not None else ""
             if msg.startswith(name + ":"):
@@ -366,7 +375,7 @@ class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
                 self._set_channel_boxes(self.capture)
         self._status("")
 
-    def _on_failed(self, req: Any, exc: BaseException) -> None:
+    def _on_failed(self, req: Request, exc: BaseException) -> None:
         msg = describe_error(exc)
         if isinstance(req, OpenRequest):
             keep = " The capture already open stays open." if self.capture is not None else ""
@@ -380,7 +389,7 @@ class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
                 self.plots.show_cycle(self.plots.shown)
         self._status("")
 
-    def _on_cancelled(self, req: Any) -> None:
+    def _on_cancelled(self, req: Request) -> None:
         what = f"Reading {Path(req.path).name}" if isinstance(req, OpenRequest) else "Measuring"
         keep = " The capture already open stays open." if self.capture is not None else ""
         self.banner.show_message(f"{what} was cancelled.{keep}", kind="info")
@@ -395,7 +404,8 @@ class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
             self._status("Cancelling…")
             self.runner.cancel()
 
-    def _show_error(self, text: str, action: str | None = None, callback: Any = None) -> None:
+    def _show_error(self, text: str, action: str | None = None,
+                    callback: Callable[[], None] | None = None) -> None:
         self.banner.show_message(text, "error", action, callback)
         self.job_failed.emit(text)
 
@@ -419,21 +429,6 @@ class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
             else:
                 shift = start - self.plots.cycle_span(before)[0]
                 self.plots.trace_plot.setXRange(lo + shift, hi + shift, padding=0)
-
-    def next_cycle(self) -> None:
-        self.show_cycle(self.plots.shown + 1)
-
-    def previous_cycle(self) -> None:
-        self.show_cycle(self.plots.shown - 1)
-
-    def zoom_to_cycle(self) -> None:
-        self.plots.zoom_to_cycle()
-
-    def zoom_to_all(self) -> None:
-        self.plots.zoom_to_all()
-
-    def _toggle_all_fits(self, on: bool) -> None:
-        self.plots.set_all_fits(on)
 
     # -- closing --------------------------------------------------------------------------------
 

@@ -2,11 +2,15 @@
 
 from __future__ import annotations
 
-from typing import Any
+from typing import TYPE_CHECKING
 
 from PySide6 import QtGui, QtWidgets
 
-from .. import formatting as fmt
+from trueslope.core.report.numbers import MISSING, si
+
+if TYPE_CHECKING:
+    from trueslope.core.capture import Capture
+    from trueslope.core.results import Analysis
 
 
 class CapturePanel(QtWidgets.QWidget):
@@ -35,16 +39,16 @@ class CapturePanel(QtWidgets.QWidget):
         lay.addWidget(wbox)
         lay.addWidget(mbox, 1)
 
-    def set_capture(self, capture: Any, analysis: Any | None) -> None:
+    def set_capture(self, capture: Capture, analysis: Analysis | None) -> None:
         rows: list[tuple[str, str]] = [
             ("File", str(capture.source)),
-            ("Layout", capture.layout or fmt.MISSING),
+            ("Layout", capture.layout or MISSING),
             ("Channels", ", ".join(capture.channel_names)),
-            ("Measured channel", analysis.channel if analysis is not None else fmt.MISSING),
+            ("Measured channel", analysis.channel if analysis is not None else MISSING),
             ("Samples", f"{capture.samples:,}".replace(",", " ")),
-            ("Sample interval", fmt.si(capture.sample_interval_s, "s")),
-            ("Sample rate", fmt.si(capture.sample_rate_hz, "Sa/s")),
-            ("Record length", fmt.si(capture.duration_s, "s")),
+            ("Sample interval", si(capture.sample_interval_s, "s")),
+            ("Sample rate", si(capture.sample_rate_hz, "Sa/s")),
+            ("Record length", si(capture.duration_s, "s")),
             ("Time column", capture.time_column or "none (interval given)"),
         ]
         if analysis is not None:

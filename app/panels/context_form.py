@@ -7,21 +7,28 @@ the window re-measures in a worker.
 
 from __future__ import annotations
 
-from typing import Any
+from typing import TYPE_CHECKING
 
 from PySide6 import QtCore, QtWidgets
 
+from ..fields import FIELD_LABELS, settings_message
 
-#: The context form's fields: (keyword of parse_context, label, placeholder, help).
-CONTEXT_FIELDS: tuple[tuple[str, str, str, str], ...] = (
-    ("capacitance", "Capacitor", "e.g. 47n", "The capacitor the current charges, farads (47n = 47 nF)"),
-    ("current", "Current", "e.g. 100u", "The constant current into the capacitor, amperes; "
+if TYPE_CHECKING:
+    from trueslope.core.circuit import CircuitContext
+
+
+#: The context form's fields: (keyword of parse_context, placeholder, help); each
+#: field's label is :data:`~trueslope.app.fields.FIELD_LABELS` of its keyword.
+CONTEXT_FIELDS: tuple[tuple[str, str, str], ...] = (
+    ("capacitance", "e.g. 47n", "Capacitance of the capacitor the current charges, farads "
+     "(47n = 47 nF)"),
+    ("current", "e.g. 100u", "The constant current into the capacitor, amperes; "
      "or give the set resistor and reference below instead"),
-    ("set_resistor", "Set resistor", "e.g. 10k", "Resistor that sets the current source, ohms"),
-    ("reference", "Reference", "e.g. 1.0", "Voltage across the set resistor, volts"),
-    ("probe", "Probe", "e.g. 10M,12p", "Resistance and capacitance the probe adds, "
+    ("set_resistor", "e.g. 10k", "Resistor that sets the current source, ohms"),
+    ("reference", "e.g. 1.0", "Voltage across the set resistor, volts"),
+    ("probe", "e.g. 10M,12p", "Resistance and capacitance the probe adds, "
      "as R,C (10M,12p = 10 MΩ with 12 pF)"),
-    ("tolerance", "Tolerance", "e.g. 10%", "Tolerance of the parts, for the self-check's verdicts"),
+    ("tolerance", "e.g. 10%", "Tolerance of the parts, for the self-check's verdicts"),
 )
 
 
@@ -47,13 +54,13 @@ class ContextForm(QtWidgets.QGroupBox):
         grid.setHorizontalSpacing(8)
         grid.setVerticalSpacing(4)
         self.edits: dict[str, QtWidgets.QLineEdit] = {}
-        for i, (key, label, placeholder, tip) in enumerate(CONTEXT_FIELDS):
+        for i, (key, placeholder, tip) in enumerate(CONTEXT_FIELDS):
             edit = QtWidgets.QLineEdit()
             edit.setPlaceholderText(placeholder)
             edit.setToolTip(tip)
             edit.setClearButtonEnabled(True)
             edit.textEdited.connect(self._schedule)
-            name = QtWidgets.QLabel(label)
+            name = QtWidgets.QLabel(FIELD_LABELS[key])
             name.setToolTip(tip)
             name.setBuddy(edit)
             row, col = divmod(i, 2)
@@ -71,7 +78,8 @@ class ContextForm(QtWidgets.QGroupBox):
         self._timer.setSingleShot(True)
         self._timer.setInterval(self.DEBOUNCE_MS)
         self._timer.timeout.connect(self.apply)
-        self._last: Any = object()
+        # Nothing parsed yet: the first valid parse (None included) is news.
+        self._last: CircuitContext | None | object = object()
 
     def values(self) -> dict[str, str | None]:
         return {k: (e.text().strip() or None) for k, e in self.edits.items()}
@@ -88,7 +96,7 @@ class ContextForm(QtWidgets.QGroupBox):
         try:
             ctx = parse_context(**self.values())
         except SettingsError as exc:
-            self.error.setText(str(exc))
+            self.error.setText(settings_message(exc))
             self.error.show()
             return
         self.error.hide()

@@ -1,25 +1,36 @@
-"""The cycle list: per-cycle figures as a table; a click shows that cycle."""
+"""The cycle list: per-cycle figures as a table; a click shows that cycle.
+
+A cycle's figure is written as :func:`trueslope.core.report.numbers.figure_text`
+writes the summary figure of the same name, so the two read alike.
+"""
 
 from __future__ import annotations
 
-from typing import Any, Callable
+from typing import TYPE_CHECKING, Any, Callable
 
 from PySide6 import QtCore, QtGui, QtWidgets
 
-from .. import formatting as fmt
+from trueslope.core.report.numbers import figure_text, si
+
 from .. import theme
 
+if TYPE_CHECKING:
+    from trueslope.core.results import CycleFigures
 
-_CYCLE_COLUMNS: tuple[tuple[str, str, Callable[[Any], str], str], ...] = (
+#: Columns: (header, field, text of a cycle, tooltip).
+_CYCLE_COLUMNS: tuple[tuple[str, str, Callable[[CycleFigures], str], str], ...] = (
     ("#", "index", lambda c: str(c.index + 1), "Cycle number, from the start of the record"),
-    ("Starts at", "ramp_start_s", lambda c: fmt.si(c.ramp_start_s, "s"), "Ramp start, seconds into the record"),
-    ("Period", "period_s", lambda c: fmt.si(c.period_s, "s"), "Ramp start to the next ramp start"),
-    ("Slope", "slope_v_per_s", lambda c: fmt.si(c.slope_v_per_s, "V/s"), "Best-fit slope of this cycle alone"),
-    ("Nonlinearity", "nonlinearity_pct", lambda c: fmt.pct(c.nonlinearity_pct),
+    ("Starts at", "ramp_start_s", lambda c: si(c.ramp_start_s, "s"), "Ramp start, seconds into the record"),
+    ("Period", "period_s", lambda c: figure_text("period_s", c.period_s),
+     "Ramp start to the next ramp start"),
+    ("Slope", "slope_v_per_s", lambda c: figure_text("slope_v_per_s", c.slope_v_per_s),
+     "Best-fit slope of this cycle alone"),
+    ("Nonlinearity", "nonlinearity_pct", lambda c: figure_text("nonlinearity_pct", c.nonlinearity_pct),
      "Nonlinearity of this cycle alone (its noise included)"),
-    ("Peak dev.", "peak_deviation_v", lambda c: fmt.si(c.peak_deviation_v, "V"),
+    ("Peak dev.", "peak_deviation_v", lambda c: figure_text("peak_deviation_v", c.peak_deviation_v),
      "Largest distance from this cycle's best-fit line"),
-    ("Span", "amplitude_v", lambda c: fmt.si(c.amplitude_v, "V"), "Amplitude of this cycle"),
+    ("Amplitude", "amplitude_v", lambda c: figure_text("amplitude_v", c.amplitude_v),
+     "Amplitude of this cycle"),
     ("", "outlier", lambda c: "outlier" if c.outlier else "", "Marked when this cycle's figures stand apart"),
 )
 
@@ -29,9 +40,9 @@ class CycleModel(QtCore.QAbstractTableModel):
 
     def __init__(self, parent: QtCore.QObject | None = None) -> None:
         super().__init__(parent)
-        self._cycles: tuple[Any, ...] = ()
+        self._cycles: tuple[CycleFigures, ...] = ()
 
-    def set_cycles(self, cycles: tuple[Any, ...]) -> None:
+    def set_cycles(self, cycles: tuple[CycleFigures, ...]) -> None:
         self.beginResetModel()
         self._cycles = tuple(cycles)
         self.endResetModel()
@@ -95,7 +106,7 @@ class CycleTable(QtWidgets.QTableView):
         self._quiet = False
         self.selectionModel().currentRowChanged.connect(self._row_changed)
 
-    def set_cycles(self, cycles: tuple[Any, ...]) -> None:
+    def set_cycles(self, cycles: tuple[CycleFigures, ...]) -> None:
         self._quiet = True
         try:
             self.cycle_model.set_cycles(cycles)

@@ -1,29 +1,58 @@
 """The findings panel: the diagnosis, its explanation and next checks, the self-check, and the context form.
 
-It only reads a finished :class:`~trueslope.core.results.Analysis`.
+It only reads a finished :class:`~trueslope.core.results.Analysis`. Every
+sentence comes from :mod:`trueslope.core.report` (the diagnosis line the
+terminal prints, the explanation, the bench steps, each self-check item's
+likely cause and the self-check's summary), and every number from
+:mod:`trueslope.core.report.numbers`, so the window says what the terminal
+and the exports say.
 """
 
 from __future__ import annotations
 
 import html
-from typing import Any
+from typing import TYPE_CHECKING
 
 from PySide6 import QtCore, QtGui, QtWidgets
 
-from .. import formatting as fmt
+from trueslope.core.report.numbers import MISSING, pct, quantity
+from trueslope.core.report.prose import (explanation, likely_cause, next_checks,
+                                         selfcheck_summary)
+from trueslope.core.report.summary import diagnosis_line
+
 from .. import theme
 from .context_form import ContextForm
 
+if TYPE_CHECKING:
+    from trueslope.core.results import Analysis, CheckItem, ContextCheck, Diagnosis
 
-_CURVATURE_WORDS = {
-    "concave": "concave: the slope falls along the ramp",
-    "convex": "convex: the slope rises along the ramp",
-}
+#: What the self-check says before any circuit value is given.
+NO_CONTEXT = "Fill in the circuit context above to compare the circuit with the measurement."
+#: Columns of the self-check table.
+CHECK_COLUMNS = ("Check", "Expected", "Measured", "Off by", "Verdict")
 
 
-def _pretty(word: Any) -> str:
-    text = str(word).replace("_", " ").replace("-", " ").strip()
+def _pretty(code: str) -> str:
+    """A code or name as a heading: ``"shunt-loading"`` -> ``"Shunt loading"``."""
+    text = code.replace("_", " ").replace("-", " ").strip()
     return text[:1].upper() + text[1:]
+
+
+def _text_label(object_name: str = "") -> QtWidgets.QLabel:
+    label = QtWidgets.QLabel("")
+    label.setWordWrap(True)
+    label.setTextFormat(QtCore.Qt.TextFormat.PlainText)
+    label.setTextInteractionFlags(QtCore.Qt.TextInteractionFlag.TextSelectableByMouse)
+    if object_name:
+        label.setObjectName(object_name)
+    return label
+
+
+def _bullets(title: str, lines: list[str]) -> str:
+    """Rich text: a bold title over a bulleted list (each line already escaped)."""
+    items = "".join(f"<li>{line}</li>" for line in lines)
+    head = f"<b>{html.escape(title)}</b>" if title else ""
+    return f"{head}<ul style='margin-left:-20px'>{items}</ul>"
 
 
 class FindingsPanel(QtWidgets.QScrollArea):
@@ -39,29 +68,23 @@ class FindingsPanel(QtWidgets.QScrollArea):
 
         diag = QtWidgets.QGroupBox("Diagnosis")
         dl = QtWidgets.QVBoxLayout(diag)
-        self.signature = QtWidgets.QLabel(fmt.MISSING)
-        self.signature.setObjectName("signature")
-        self.signature.setWordWrap(True)
-        self.strength = QtWidgets.QLabel("")
-        self.strength.setObjectName("muted")
-        self.strength.setWordWrap(True)
-        self.explanation = QtWidgets.QLabel("")
-        self.explanation.setWordWrap(True)
-        self.explanation.setTextInteractionFlags(QtCore.Qt.TextInteractionFlag.TextSelectableByMouse)
+        self.signature = _text_label("signature")
+        self.signature.setText(MISSING)
+        self.line = _text_label("muted")
+        self.explanation = _text_label()
         self.next_checks = QtWidgets.QLabel("")
         self.next_checks.setWordWrap(True)
         self.next_checks.setTextFormat(QtCore.Qt.TextFormat.RichText)
-        for w in (self.signature, self.strength, self.explanation, self.next_checks):
+        for w in (self.signature, self.line, self.explanation, self.next_checks):
             dl.addWidget(w)
         lay.addWidget(diag)
 
         check = QtWidgets.QGroupBox("Self-check against the circuit")
         cl = QtWidgets.QVBoxLayout(check)
-        self.check_summary = QtWidgets.QLabel("Fill in the circuit context above to compare "
-                                              "the circuit with the measurement.")
-        self.check_summary.setWordWrap(True)
-        self.check_table = QtWidgets.QTableWidget(0, 5)
-        self.check_table.setHorizontalHeaderLabels(["Check", "Expected", "Measured", "Off by", "Verdict"])
+        self.check_summary = _text_label()
+        self.check_summary.setText(NO_CONTEXT)
+        self.check_table = QtWidgets.QTableWidget(0, len(CHECK_COLUMNS))
+        self.check_table.setHorizontalHeaderLabels(list(CHECK_COLUMNS))
         self.check_table.verticalHeader().setVisible(False)
         self.check_table.verticalHeader().setDefaultSectionSize(22)
         self.check_table.setEditTriggers(QtWidgets.QAbstractItemView.EditTrigger.NoEditTriggers)
@@ -69,110 +92,84 @@ class FindingsPanel(QtWidgets.QScrollArea):
         self.check_table.horizontalHeader().setStretchLastSection(True)
         self.check_table.setVerticalScrollBarPolicy(QtCore.Qt.ScrollBarPolicy.ScrollBarAlwaysOff)
         self.check_table.hide()
-        self.probe_line = QtWidgets.QLabel("")
-        self.probe_line.setWordWrap(True)
-        self.probe_line.setTextFormat(QtCore.Qt.TextFormat.RichText)
-        self.probe_line.hide()
+        self.causes = QtWidgets.QLabel("")
+        self.causes.setWordWrap(True)
+        self.causes.setTextFormat(QtCore.Qt.TextFormat.RichText)
+        self.causes.hide()
         cl.addWidget(self.check_summary)
         cl.addWidget(self.check_table)
-        cl.addWidget(self.probe_line)
+        cl.addWidget(self.causes)
         self.form = ContextForm()
         lay.addWidget(self.form)
         lay.addWidget(check)
         lay.addStretch(1)
         self.setWidget(body)
 
-    def set_analysis(self, analysis: Any) -> None:
+    def set_analysis(self, analysis: Analysis) -> None:
         d = analysis.diagnosis
-        if d is None:
-            self.signature.setText("No diagnosis")
-            self.strength.setText("")
-            self.explanation.setText("")
-            self.next_checks.setText("")
-        else:
-            self.signature.setText(_pretty(getattr(d, "signature", "")))
-            bits = [str(getattr(d, "strength_words", "") or "")]
-            curv = str(getattr(d, "curvature", "") or "")
-            if curv in _CURVATURE_WORDS:
-                bits.append(_CURVATURE_WORDS[curv])
-            tau = getattr(d, "tau_s", None)
-            if tau is not None and fmt.si(tau, "s") != fmt.MISSING:
-                bits.append(f"time constant {fmt.si(tau, 's', 3)}")
-            shunt = getattr(d, "equivalent_shunt_ohm", None)
-            if shunt is not None and fmt.si(shunt, "Ω") != fmt.MISSING:
-                bits.append(f"like a {fmt.si(shunt, 'Ω', 3)} shunt")
-            beta = getattr(d, "voltage_coefficient_per_v", None)
-            if beta is not None and fmt.plain(beta) != fmt.MISSING:
-                bits.append(f"slope changes {fmt.pct(100.0 * beta)} per volt")
-            self.strength.setText(" · ".join(b for b in bits if b))
-            self.explanation.setText(str(getattr(d, "explanation", "") or ""))
-            checks = [str(c) for c in (getattr(d, "next_checks", ()) or ())]
-            if checks:
-                items = "".join(f"<li>{html.escape(c)}</li>" for c in checks)
-                self.next_checks.setText(f"<b>Next checks</b><ul style='margin-left:-20px'>{items}</ul>")
-            else:
-                self.next_checks.setText("")
-        self._set_check(analysis.context_check)
+        self.signature.setText(_pretty(d.signature))
+        self.line.setText(diagnosis_line(analysis))
+        self.explanation.setText(explanation(d))
+        steps = [html.escape(step) for step in next_checks(d)]
+        self.next_checks.setText(_bullets("Next checks", steps) if steps else "")
+        self._set_check(analysis.context_check, d)
 
-    def _set_check(self, cc: Any) -> None:
+    def _set_check(self, cc: ContextCheck | None, d: Diagnosis) -> None:
         if cc is None:
-            self.check_summary.setText("Fill in the circuit context above to compare the "
-                                       "circuit with the measurement.")
+            self.check_summary.setText(NO_CONTEXT)
             self.check_table.setRowCount(0)
             self.check_table.hide()
-            self.probe_line.hide()
+            self.causes.hide()
             return
-        self.check_summary.setText(str(getattr(cc, "summary", "") or ""))
-        items = tuple(getattr(cc, "items", ()) or ())
+        self.check_summary.setText(selfcheck_summary(cc, d))
+        items = cc.items
+        causes = [likely_cause(it, d) for it in items]
         self.check_table.setRowCount(len(items))
-        for r, it in enumerate(items):
-            unit = str(getattr(it, "unit", "") or "")
-            cells = [
-                _pretty(getattr(it, "name", "")),
-                fmt.quantity(getattr(it, "expected", None), unit),
-                fmt.quantity(getattr(it, "measured", None), unit),
-                fmt.pct(getattr(it, "deviation_pct", None)),
-                str(getattr(it, "verdict", "")),
-            ]
-            cause = str(getattr(it, "likely_cause", "") or "")
-            for c, text in enumerate(cells):
-                cell = QtWidgets.QTableWidgetItem(text)
-                if cause:
-                    cell.setToolTip(cause)
-                if c == 4:
-                    cell.setForeground(QtGui.QBrush(QtGui.QColor(theme.verdict_colour(text))))
-                    f = cell.font()
-                    f.setBold(True)
-                    cell.setFont(f)
-                self.check_table.setItem(r, c, cell)
+        for r, (it, cause) in enumerate(zip(items, causes)):
+            self._set_row(r, it, cause)
         self.check_table.resizeColumnsToContents()
         self.check_table.setVisible(bool(items))
         h = self.check_table.horizontalHeader().height() + 2
         for r in range(len(items)):
             h += self.check_table.rowHeight(r)
         self.check_table.setFixedHeight(h + 2)
-        lines = []
-        for it in items:
-            cause = str(getattr(it, "likely_cause", "") or "")
-            if cause and getattr(it, "verdict", "") == "outside":
-                lines.append(f"<li><b>{html.escape(_pretty(it.name))}</b>: {html.escape(cause)}</li>")
-        match = str(getattr(cc, "probe_match", "") or "")
-        if match:
-            lines.append(f"<li>The equivalent shunt looks like: {html.escape(match)}.</li>")
-        pred = getattr(cc, "probe_predicted_nonlinearity_pct", None)
-        if pred is not None and fmt.pct(pred) != fmt.MISSING:
-            explains = getattr(cc, "probe_explains_bow", None)
-            tail = {True: " That explains the bow measured.",
-                    False: ""}.get(explains, "")
-            lines.append(f"<li>The stated probe alone would bend the ramp by {fmt.pct(pred)}."
-                         f"{tail}</li>")
+        lines = [self._cause_line(it, cause) for it, cause in zip(items, causes) if cause]
         if lines:
-            self.probe_line.setText(f"<ul style='margin-left:-20px'>{''.join(lines)}</ul>")
-            self.probe_line.show()
+            self.causes.setText(_bullets("Likely causes and what each figure is", lines))
+            self.causes.show()
         else:
-            self.probe_line.hide()
+            self.causes.hide()
+
+    def _set_row(self, r: int, it: CheckItem, cause: str) -> None:
+        cells = (_pretty(it.name), quantity(it.expected, it.unit), quantity(it.measured, it.unit),
+                 pct(it.deviation_pct, signed=True), it.verdict)
+        for c, text in enumerate(cells):
+            cell = QtWidgets.QTableWidgetItem(text)
+            if cause:
+                cell.setToolTip(cause)
+            if c == len(cells) - 1:
+                cell.setForeground(QtGui.QBrush(QtGui.QColor(theme.verdict_colour(text))))
+                f = cell.font()
+                f.setBold(True)
+                cell.setFont(f)
+            self.check_table.setItem(r, c, cell)
+
+    @staticmethod
+    def _cause_line(it: CheckItem, cause: str) -> str:
+        # As the terminal puts it: an item outside its tolerance is "likely" its
+        # cause; any other item's words say what the figure is.
+        name = f"<b>{html.escape(_pretty(it.name))}</b>"
+        if it.verdict == "outside":
+            return f"{name} (outside): likely {html.escape(cause)}"
+        return f"{name}: {html.escape(cause)}"
 
     def check_rows(self) -> list[list[str]]:
         """The self-check table as text (tests)."""
         t = self.check_table
         return [[t.item(r, c).text() for c in range(t.columnCount())] for r in range(t.rowCount())]
+
+    def causes_text(self) -> str:
+        """The likely-cause list as shown, without markup (tests)."""
+        doc = QtGui.QTextDocument()
+        doc.setHtml(self.causes.text())
+        return doc.toPlainText() if self.causes.isVisibleTo(self) else ""

@@ -17,10 +17,10 @@ import pytest
 from PySide6 import QtCore, QtGui, QtWidgets
 from PySide6.QtTest import QTest
 
-from trueslope.app import formatting as fmt
 from trueslope.core.analysis import analyse
 from trueslope.core.errors import Cancelled
 from trueslope.core.io import load_capture
+from trueslope.core.report.numbers import figure_text, with_ci
 from trueslope.core.settings import Settings
 
 from .conftest import open_and_wait, wait_failed
@@ -34,8 +34,9 @@ def test_open_sample_shows_what_the_engine_measured(qtbot, window):
     a = open_and_wait(qtbot, window, FILM)
     ref = analyse(load_capture(FILM), Settings(trim_fraction=window.settings.trim_fraction))
     assert a.figures.nonlinearity_pct == pytest.approx(ref.figures.nonlinearity_pct, rel=1e-12)
-    assert window.figures.value_text("nonlinearity_pct") == fmt.pct(ref.figures.nonlinearity_pct)
-    assert window.figures.value_text("slope_v_per_s") == fmt.with_ci(
+    assert window.figures.value_text("nonlinearity_pct") == figure_text(
+        "nonlinearity_pct", ref.figures.nonlinearity_pct)
+    assert window.figures.value_text("slope_v_per_s") == with_ci(
         ref.figures.slope_v_per_s, ref.figures.slope_ci95_v_per_s, "V/s")
     assert "±" in window.figures.value_text("slope_v_per_s")
     assert window.cycles.model().rowCount() == len(ref.cycles)
@@ -404,7 +405,7 @@ def test_changing_the_trim_measures_with_the_new_trim(qtbot, window):
     b = blocker.args[0]
     assert b.figures.trim_fraction == pytest.approx(0.15)
     assert b.averaged.window_start_s > a.averaged.window_start_s
-    assert window.figures.value_text("trim_fraction") == fmt.pct(15.0)
+    assert window.figures.value_text("trim_fraction") == figure_text("trim_fraction", 0.15)
 
 
 def test_help_dialogs_open(qtbot, window):
