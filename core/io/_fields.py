@@ -6,9 +6,10 @@ rows and read numbers the same way; this is that one way.
 
 from __future__ import annotations
 
+import csv
 import re
 
-__all__ = ["is_number", "split_row", "row_fields", "to_float"]
+__all__ = ["is_number", "split_row", "row_kind", "row_fields", "to_float"]
 
 _NUM_POINT = re.compile(r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?$")
 _NUM_COMMA = re.compile(r"[+-]?(?:\d+(?:,\d*)?|,\d+)(?:[eE][+-]?\d+)?$")
@@ -35,6 +36,9 @@ def is_number(f: str, decimal: str) -> bool:
 def split_row(line: str, delimiter: str | None) -> list[str]:
     """Split a line at every delimiter, stripping spaces and one pair of quotes.
 
+    A delimiter inside double quotes belongs to its field (RFC 4180), so
+    ``1e-06,"1,015"`` is two fields.
+
     Parameters
     ----------
     line : str
@@ -49,8 +53,38 @@ def split_row(line: str, delimiter: str | None) -> list[str]:
     """
     if delimiter is None:
         return line.split()
+    if '"' in line:
+        try:
+            quoted = next(csv.reader([line], delimiter=delimiter, skipinitialspace=True))
+        except (csv.Error, StopIteration):
+            quoted = None
+        if quoted is not None:
+            return [p.strip() for p in quoted]
     parts = [p.strip() for p in line.split(delimiter)]
     return [p[1:-1].strip() if len(p) >= 2 and p[0] == p[-1] == '"' else p for p in parts]
+
+
+def row_kind(line: str, d: str | None, decimal: str) -> tuple[str, int, bool]:
+    """("blank" | "numeric" | "text", field count, row ends in the delimiter).
+
+    ``d`` is the delimiter (None: runs of white space), ``decimal`` the mark.
+
+    A row ending in the delimiter counts one field less, so that rows with and
+    without a trailing delimiter belong to the same block of data.
+    """
+    if not line.strip():
+        return "blank", 0, False
+    parts = split_row(line, d)
+    trailing = d is not None and len(parts) > 1 and parts[-1] == ""
+    count = len(parts) - (1 if trailing else 0)
+    seen = False
+    for p in parts:
+        if p == "":
+            continue
+        if not is_number(p, decimal):
+            return "text", count, trailing
+        seen = True
+    return ("numeric" if seen else "blank"), count, trailing
 
 
 def row_fields(line: str, delimiter: str | None, k: int) -> list[str]:

@@ -29,6 +29,7 @@ from ..capture import Capture
 from ..errors import (CaptureFormatError, EmptyCaptureError, RaggedRowsError,
                       TrueslopeWarning)
 from ._assemble import Column, assemble, column_units
+from ._decimal_comma import row_clash
 from ._fields import row_fields, to_float
 from .dialect import (MIN_RUN, SNIFF_LINES, Dialect, Sniff, decode_head, describe_layout,
                       head_lines, sniff_lines)
@@ -101,6 +102,9 @@ def _parse_lines(blk: _Blocks, a: int, b: int, cancel: Callable[[], None]) -> li
         if text:
             parts = row_fields(text, d, k)
             if len(parts) != k:
+                clash = row_clash(parts, k) if (d, dec) == (",", ".") else None
+                if clash is not None:
+                    raise CaptureFormatError(clash, blk.path, line)
                 raise RaggedRowsError(
                     f"the row has {len(parts)} field{'s' if len(parts) != 1 else ''}, expected "
                     f"{k} like the first data row (line {blk.first_line})", blk.path, line)
@@ -243,9 +247,10 @@ def read_delimited(path: str, *, sample_interval_s: float | None = None,
         while True:
             whole = len(head) >= size
             lines = head_lines(head, whole, encoding, bom)
-            sniff = sniff_lines(lines[:SNIFF_LINES], encoding, whole and len(lines) <= SNIFF_LINES)
+            sniff = sniff_lines(lines[:SNIFF_LINES], encoding, whole and len(lines) <= SNIFF_LINES,
+                                path)
             if sniff is None and len(lines) > SNIFF_LINES:
-                sniff = sniff_lines(lines, encoding, whole)
+                sniff = sniff_lines(lines, encoding, whole, path)
             if (sniff is not None and sniff.data_line < len(lines) - MIN_RUN) or whole \
                     or len(head) >= MAX_HEAD_BYTES:
                 break

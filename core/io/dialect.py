@@ -8,7 +8,8 @@ Layout accepted, top to bottom::
 
 How the layout is found (on the first 1000 lines): every candidate
 dialect (comma, semicolon, tab or runs of white space; decimal point, or
-decimal comma where the delimiter is not a comma) splits the lines, and the
+decimal comma where the delimiter is not a comma, or is a comma and the
+file quotes values holding one, ``"1,015"``) splits the lines, and the
 data block is the first run of at least 8 consecutive rows of numbers with the
 same field count. The dialect that explains the most rows (minus the rows it
 cannot explain) wins; ties go against a comma dialect whose fields look like
@@ -17,6 +18,10 @@ for every field, then to more fields, then to the order above. The non-blank
 line just before the data is the header when it splits into the same number
 of fields and no name is a number or a ``key: value`` pair; a row of units
 under a row of names is merged into it. Lines above are the preamble.
+
+A ',' separated file whose unquoted numbers seem to carry decimal commas
+too (``1e-06,1,015``) is refused, with the way to export it again: see
+:mod:`._decimal_comma` for the evidence.
 
 Known ambiguity: a single column of decimal-comma numbers with no header and
 no fraction starting with 0 reads as two integer columns; a header row
@@ -34,7 +39,8 @@ from dataclasses import dataclass, field
 
 from ..errors import CaptureFormatError, TrueslopeWarning
 from ..units import lookup_column_unit
-from ._fields import is_number, split_row
+from ._decimal_comma import decimal_comma_clash
+from ._fields import is_number, row_kind as _kind, split_row
 
 __all__ = ["SNIFF_LINES", "MIN_RUN", "Dialect", "Sniff", "decode_head", "head_lines",
            "sniff_lines", "describe_layout"]
@@ -48,7 +54,8 @@ _UNIT_TOKEN = re.compile(r"^[\(\[\{]?\s*([^\(\)\[\]\{\}]*?)\s*[\)\]\}]?$")
 
 # (delimiter, decimal); None is a run of white space. Order breaks ties.
 _CANDIDATES: tuple[tuple[str | None, str], ...] = (
-    (",", "."), (";", "."), ("\t", "."), (None, "."), (";", ","), ("\t", ","), (None, ","))
+    (",", "."), (";", "."), ("\t", "."), (None, "."), (";", ","), ("\t", ","), (None, ","),
+    (",", ","))
 _DELIM_WORDS = {",": "',' separated", ";": "';' separated", "\t": "tab separated",
                 None: "space separated"}
 
@@ -103,27 +110,6 @@ class Sniff:
     metadata: dict[str, str]
     preamble_lines: int
     warnings: list[TrueslopeWarning] = field(default_factory=list)
-
-
-def _kind(line: str, d: str | None, decimal: str) -> tuple[str, int, bool]:
-    """("blank" | "numeric" | "text", field count, row ends in the delimiter).
-
-    A row ending in the delimiter counts one field less, so that rows with and
-    without a trailing delimiter belong to the same block of data.
-    """
-    if not line.strip():
-        return "blank", 0, False
-    parts = split_row(line, d)
-    trailing = d is not None and len(parts) > 1 and parts[-1] == ""
-    count = len(parts) - (1 if trailing else 0)
-    seen = False
-    for p in parts:
-        if p == "":
-            continue
-        if not is_number(p, decimal):
-            return "text", count, trailing
-        seen = True
-    return ("numeric" if seen else "blank"), count, trailing
 
 
 def _split_header(line: str, d: str | None, k: int) -> list[str] | None:
@@ -309,7 +295,17 @@ def head_lines(head: bytes, complete: bool, encoding: str, bom: int) -> list[tup
     return out
 
 
-def sniff_lines(lines: list[tuple[int, str]], encoding: str, whole: bool) -> Sniff | None:
+def _refuse_decimal_commas(lines: list[tuple[int, str]], start: int, dec: str,
+                           whole: bool, path: str | None) -> None:
+    """Raise when a ',' separated file's numbers seem to hold decimal commas too."""
+    found = decimal_comma_clash(lines, start, dec, whole,
+                                lambda text, n: _header_names(text, ",", dec, n))
+    if found is not None:
+        raise CaptureFormatError(found[1], path, found[0])
+
+
+def sniff_lines(lines: list[tuple[int, str]], encoding: str, whole: bool,
+                path: str | None = None) -> Sniff | None:
     """Find the dialect, the data start, the header and the preamble.
 
     Parameters
@@ -321,14 +317,25 @@ def sniff_lines(lines: list[tuple[int, str]], encoding: str, whole: bool) -> Sni
     whole : bool
         True when ``lines`` reach the end of the file, so a short last line
         is a truncated row and not evidence against a dialect.
+    path : str, optional
+        The file, for messages.
 
     Returns
     -------
     Sniff or None
         None when no line is a row of numbers in any dialect.
+
+    Raises
+    ------
+    CaptureFormatError
+        A ',' separated file whose numbers seem to be written with a decimal
+        comma as well (see :mod:`._decimal_comma`).
     """
     best = None
     for prio, (d, dec) in enumerate(_CANDIDATES):
+        if d == dec and not any("," in p for _, text in lines if '"' in text
+                                for p in split_row(text, d)):
+            continue  # a comma is both only where quotes keep "1,015" whole
         kinds = [_kind(text, d, dec) for _, text in lines]
         runs: list[tuple[int, int, int]] = []  # (start index, count, fields)
         cur: list[int] | None = None
@@ -368,11 +375,12 @@ def sniff_lines(lines: list[tuple[int, str]], encoding: str, whole: bool) -> Sni
             after = after[:-1]  # a truncated last line is not evidence against the dialect
         coverage = sum(1 for kd in after if fits(kd))
         bad = len(after) - coverage
-        # "0,05" read as two integers "0" and "05" hints at a decimal comma.
+        # "0,05" read as two integers "0" and "05" hints at a decimal comma
+        # ("0057,0887" does not: no integer part is zero-padded).
         suspicious = 0
         if d == "," and dec == ".":
             for i in range(start, min(len(lines), start + 50)):
-                if re.search(r"(?:^|,)\s*0\d", lines[i][1]):
+                if re.search(r"(?:^|,)\s*[+-]?(?:0|[1-9]\d*)\s*,\s*0\d", lines[i][1]):
                     suspicious = 1
                     break
         header_match = 0
@@ -385,6 +393,8 @@ def sniff_lines(lines: list[tuple[int, str]], encoding: str, whole: bool) -> Sni
     if best is None:
         return None
     _, d, dec, k, start, header_idx, trailing = best
+    if d == ",":
+        _refuse_decimal_commas(lines, start, dec, whole, path)
     dialect = Dialect(d, dec, k, trailing)
     warnings: list[TrueslopeWarning] = []
     header = None
