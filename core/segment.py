@@ -9,11 +9,14 @@ of a sample), and the ramp and retrace of each full cycle.
 
 from __future__ import annotations
 
+import dataclasses
+
 import numpy as np
 
+from .artefacts import Clipping, find_clipping, find_spikes, without_spikes
 from .errors import NoFullCycleError, NotASawtoothError
 from .levels import ramp_extremes, state_levels
-from .noise import estimate_noise_rms
+from .noise import adc_step, estimate_noise_rms
 from .results import Segmentation, StateLevels
 
 #: Hysteresis thresholds as fractions of the span between the ramp levels.
@@ -188,30 +191,116 @@ def segment(v: np.ndarray, sample_interval_s: float, t0_s: float = 0.0,
     NotASawtoothError
         Flat record, or rise and fall of similar speed (triangle, sine, square).
     NoFullCycleError
-        Fewer than two reset edges in the record.
-    """
-    x = np.asarray(v, dtype=float)
-    n = x.size
-    noise = estimate_noise_rms(x)
-    lo, hi = ramp_extremes(x)
-    span = hi - lo
-    if not span > max(8.0 * noise, 1e-12):
-        raise NotASawtoothError(
-            f"no ramp found: the signal spans {span:.3g} V, within its noise "
-            f"({noise:.3g} V RMS); is this the right channel?")
-    lower = lo + LOWER_THRESHOLD_FRACTION * span
-    upper = lo + UPPER_THRESHOLD_FRACTION * span
-    levels = StateLevels(low_v=lo, high_v=hi, method="histogram extremes",
-                         lower_threshold_v=lower, upper_threshold_v=upper)
-    if sync is not None:
-        return _segment_with_sync(x, np.asarray(sync, dtype=float), sample_interval_s, t0_s, levels)
+        Fewer than two reset edges in the record (a full cycle needs one at each end).
 
+    Notes
+    -----
+    Isolated spikes are found and bridged first (``artefacts``), clipping is
+    noted. The thresholds come from the steady cycles themselves: a first pass
+    with levels from the record's histogram (its extremes, or its 5 % and 95 %
+    points corrected for a uniform ramp, whichever finds more cycles), then a
+    second with the medians of the cycles' own start and end levels, so a
+    power-up or a settling probe at the start cannot pull the thresholds off.
+    """
+    raw = np.asarray(v, dtype=float)
+    noise = estimate_noise_rms(raw)
+    lo, hi = ramp_extremes(raw)
+    _check_not_flat(raw, lo, hi, noise)
+    spikes = find_spikes(raw, hi - lo, noise)
+    x = without_spikes(raw, spikes)
+    clip = find_clipping(x)
+    found = dict(spike_samples=spikes, clipped_top_v=clip.top_v, clipped_bottom_v=clip.bottom_v)
+    if sync is not None:
+        lo, hi = ramp_extremes(x) if spikes.size else (lo, hi)
+        seg = _segment_with_sync(x, np.asarray(sync, dtype=float), sample_interval_s, t0_s,
+                                 _levels(lo, hi))
+        return dataclasses.replace(seg, **found)
+    best: Segmentation | None = None
+    first_error: Exception | None = None
+    for cand in _candidate_levels(x):
+        try:
+            seg = _segment_signal(x, cand, sample_interval_s, t0_s, clip)
+        except (NoFullCycleError, NotASawtoothError) as exc:
+            first_error = first_error or exc
+            continue
+        if best is None or seg.full_cycles > best.full_cycles:
+            best = seg
+    if best is None:
+        raise first_error  # type: ignore[misc]
+    # the steady cycles' own levels, where they find cycles the histogram's levels missed
+    steady = _steady_levels(x, best, sample_interval_s, t0_s)
+    if steady is not None:
+        try:
+            again = _segment_signal(x, steady, sample_interval_s, t0_s, clip)
+            if again.full_cycles > best.full_cycles:
+                best = again
+        except (NoFullCycleError, NotASawtoothError):
+            pass
+    return dataclasses.replace(best, **found)
+
+
+def _levels(lo: float, hi: float) -> StateLevels:
+    span = hi - lo
+    return StateLevels(low_v=lo, high_v=hi, method="histogram extremes",
+                       lower_threshold_v=lo + LOWER_THRESHOLD_FRACTION * span,
+                       upper_threshold_v=lo + UPPER_THRESHOLD_FRACTION * span)
+
+
+def _check_not_flat(x: np.ndarray, lo: float, hi: float, noise: float) -> None:
+    """Refuse a record with no ramp in it: its span within a few noise sigmas or ADC steps."""
+    step = adc_step(x) or 0.0
+    span = hi - lo
+    if not span > max(8.0 * noise, 6.0 * step, 1e-12):
+        raise NotASawtoothError(
+            f"no ramp: the signal is flat within the noise (it spans {span:.3g} V against "
+            f"{noise:.3g} V RMS noise{f' and {step:.3g} V steps' if step else ''}); is this "
+            f"the right channel?")
+
+
+def _candidate_levels(x: np.ndarray) -> list[StateLevels]:
+    """Levels to try first: the histogram's extremes, and its 5 % and 95 % points
+    widened as for a uniform ramp (robust to a power-up or a flat stretch)."""
+    lo, hi = ramp_extremes(x)
+    q5, q95 = ramp_extremes(x, tail_fraction=0.05)
+    w = (q95 - q5) / 0.9
+    out = [_levels(lo, hi)]
+    if w > 0:
+        out.append(_levels(q5 - 0.05 * w, q95 + 0.05 * w))
+    return out
+
+
+def _steady_levels(x: np.ndarray, seg: Segmentation, dt: float, t0: float
+                   ) -> StateLevels | None:
+    """The medians of the cycles' own start and end levels (true polarity), or None
+    when there are too few cycles to say."""
+    if seg.full_cycles < 3:
+        return None
+    n = x.size
+    i0 = np.clip(np.round((seg.ramp_start_s - t0) / dt).astype(np.int64), 0, n - 1)
+    i1 = np.clip(np.round((seg.ramp_end_s - t0) / dt).astype(np.int64), 0, n - 1)
+    a, b = float(np.median(x[i0])), float(np.median(x[i1]))
+    lo, hi = min(a, b), max(a, b)
+    if not hi > lo:
+        return None
+    return StateLevels(low_v=lo, high_v=hi, method="median of the cycles' start and end levels",
+                       lower_threshold_v=lo + LOWER_THRESHOLD_FRACTION * (hi - lo),
+                       upper_threshold_v=lo + UPPER_THRESHOLD_FRACTION * (hi - lo))
+
+
+def _segment_signal(x: np.ndarray, levels: StateLevels, sample_interval_s: float,
+                    t0_s: float, clip: Clipping) -> Segmentation:
+    """Segment from the ramp's own fast edges with the thresholds of ``levels``."""
+    n = x.size
+    lo, hi = levels.low_v, levels.high_v
+    span = hi - lo
+    lower, upper = levels.lower_threshold_v, levels.upper_threshold_v
     up_end, up_start, down_end, down_start = _transitions(x, lower, upper)
     # drop transitions that started before the record (no last-sample-on-the-other-side)
     if up_end.size < 2 and down_end.size < 2:
         raise NoFullCycleError(
-            "fewer than two reset edges in the record: capture at least two full "
-            "cycles (a longer time base or a faster ramp)")
+            "fewer than two reset edges in the record: a full cycle needs a reset at each "
+            "end; capture at least one whole cycle between two resets (a longer time base "
+            "or a faster ramp)")
     up_dur = float(np.median(up_end - up_start)) if up_end.size else np.inf
     down_dur = float(np.median(down_end - down_start)) if down_end.size else np.inf
     if up_dur >= MIN_EDGE_RATIO * down_dur:
@@ -238,7 +327,8 @@ def segment(v: np.ndarray, sample_interval_s: float, t0_s: float = 0.0,
     mid = lo_m + 0.5 * span
     if down_end.size < 2:
         raise NoFullCycleError(
-            "fewer than two reset edges in the record: capture at least two full cycles")
+            "fewer than two reset edges in the record: a full cycle needs a reset at each "
+            "end")
     # keep resets whose fast edge started inside the record
     keep = down_start > 0
     down_end, down_start = down_end[keep], down_start[keep]
@@ -256,15 +346,19 @@ def segment(v: np.ndarray, sample_interval_s: float, t0_s: float = 0.0,
     if down_end.size < 2:
         raise NoFullCycleError("fewer than two clean reset edges in the record")
     reset_idx = t50
+    top, bottom = clip.top_v is not None, clip.bottom_v is not None
+    if direction == "falling":
+        top, bottom = bottom, top
     return _build(x, lo_m, span, levels, direction, "signal", sample_interval_s, t0_s,
                   reset_idx, np.ceil(t50).astype(np.int64), down_start, down_end, width,
-                  float(np.median(np.diff(reset_idx))))
+                  float(np.median(np.diff(reset_idx))), clipped=(bottom, top))
 
 
 def _build(xm: np.ndarray, lo_m: float, span: float, levels: StateLevels, direction: str,
            source: str, dt: float, t0: float, reset_idx: np.ndarray, i50: np.ndarray,
            before: np.ndarray, after: np.ndarray, width: int,
-           period_samples: float) -> Segmentation:
+           period_samples: float, clipped: tuple[bool, bool] = (False, False)
+           ) -> Segmentation:
     """Retrace extent and ramp boundaries of every cycle, shared by both segmenters.
 
     Parameters
@@ -282,6 +376,9 @@ def _build(xm: np.ndarray, lo_m: float, span: float, levels: StateLevels, direct
         threshold and the first below the lower one, or the sync edge twice).
     width : int
         How far, in samples, to look around each edge for its crossings.
+    clipped : (bool, bool)
+        The record is clipped at its low / high level (measurement frame): a flat
+        stretch there is the clipping, not a dwell or a plateau, and stays in the ramp.
 
     The retrace runs from the fast edge's 90 % crossing to its 10 % crossing,
     each extrapolated along the edge (by 1/8 of the 90-10 % time) to the
@@ -303,8 +400,10 @@ def _build(xm: np.ndarray, lo_m: float, span: float, levels: StateLevels, direct
     peak = np.where(ok, t90 - ext, peak)
     trough = np.where(ok, t10 + ext, trough)
     trough = np.maximum(trough, peak + 1e-3)
-    starts = _skip_low_dwell(xm, lo_m, span, trough, np.append(peak[1:], n), period_samples)
-    ends = _cut_high_plateau(xm, lo_m, span, peak[1:], starts[:-1], period_samples)
+    starts = trough if clipped[0] else _skip_low_dwell(xm, lo_m, span, trough,
+                                                       np.append(peak[1:], n), period_samples)
+    ends = peak[1:] if clipped[1] else _cut_high_plateau(xm, lo_m, span, peak[1:], starts[:-1],
+                                                         period_samples)
     ramp_start = t0 + starts[:-1] * dt
     ramp_end = t0 + ends * dt
     retrace_end = t0 + starts[1:] * dt
