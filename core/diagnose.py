@@ -2,9 +2,9 @@
 
 The systematic shape of the averaged ramp (measurement frame, always rising)
 is fitted over the fit window with one model per physical cause
-(``models``: a line, shunt loading, a voltage coefficient, dielectric
-absorption, a slope starting low, and a Legendre catch-all), each bin
-weighted by its standard error.
+(``models``: a line, shunt loading, a voltage coefficient, a capacitance
+growing with voltage, dielectric absorption, a slope starting low, and a
+Legendre catch-all), each bin weighted by its standard error.
 
 The noise in the criterion is the bins' standard errors, made robust three
 ways before the fit: each bin's variance is averaged with its neighbours'
@@ -23,10 +23,24 @@ The decision, in order:
 2. Otherwise the model with the lowest BIC among those that *explain* the
    shape: the data hardly prefer the catch-all to it (BIC within
    :data:`BIC_MARGIN`), or what it leaves of the catch-all's curve is below
-   the resolution floor or below :data:`ADEQUATE_FRACTION` of the bow.
+   the resolution floor or below :data:`ADEQUATE_FRACTION` of the bow. A rare
+   cause gives way to the common one it mimics (:data:`LIKELIER`) unless its
+   BIC is lower by more than :data:`BIC_MARGIN`: a capacitance growing with
+   voltage is reported only when the data rule out a shunt.
 3. ``unclassified`` when none does, or when the model chosen is the early
    relaxation with the slope starting *low* (no listed cause gives that; an
    under-compensated probe does); the shape is then described in words.
+
+Every other cause that explains the shape with a BIC within :data:`BIC_MARGIN`
+of the winner's is named in ``also_consistent`` with its parameter. A BIC
+difference is about ``-2 ln`` of the Bayes factor (SOURCES.md [bayes-factors]), so
+within 6 the data favour the winner by at most ``e^3``, about 20 to 1: less
+than "strong" on the Kass and Raftery scale, too little to rule the other
+out. It is the margin that a curve needs to beat the line and a model needs
+to explain the shape, so one yardstick decides "found", "explains" and "also
+possible". A shunt and a capacitance growing with voltage differ only at
+third order in ``x`` (``shapes``): at a bow of a few tenths of a percent the
+data rarely separate them, and the diagnosis says so.
 
 ``strength`` is the peak deviation of the chosen model (the catch-all for
 ``unclassified``) from the best-fit line, as a multiple of the resolution
@@ -65,6 +79,15 @@ NOISE_SMOOTH_BINS = 25
 
 SIGNATURES = ("linear", "shunt-loading", "voltage-coefficient", "dielectric-absorption",
               "unclassified")
+#: The cause (a signature) of each physical model.
+CAUSE = {"shunt-loading": "shunt-loading", "voltage-coefficient": "voltage-coefficient",
+         "capacitance-growing": "voltage-coefficient",
+         "dielectric-absorption": "dielectric-absorption"}
+#: A rare cause and the common one it mimics: a resistance across the timing
+#: capacitor (a probe, a current source's output resistance, leakage) is an
+#: everyday finding, a capacitance that grows with voltage an unusual one, so
+#: the shunt keeps the signature unless the data prefer the other by BIC_MARGIN.
+LIKELIER = {"capacitance-growing": "shunt-loading"}
 
 
 def _smooth_peak(values: np.ndarray) -> tuple[float, int]:
@@ -170,8 +193,7 @@ def diagnose(averaged: AveragedCycle, figures: Figures, noise: NoiseFloor,
     curved = [m for k, m in fits.items() if k != "line"]
     best_curved = min(curved, key=lambda m: m.bic)
     evidence = line.bic - best_curved.bic
-    physical = [fits[k] for k in ("shunt-loading", "voltage-coefficient",
-                                  "dielectric-absorption") if k in fits]
+    physical = [fits[k] for k in CAUSE if k in fits]
     shapes = physical + ([fits["relaxation-low"]] if "relaxation-low" in fits else [])
     # The systematic shape is the catch-all's curve (its degree chosen by BIC, so it
     # follows the data as closely as the noise allows); a model explains the shape
@@ -183,8 +205,8 @@ def diagnose(averaged: AveragedCycle, figures: Figures, noise: NoiseFloor,
     tol = max(floor_v, ADEQUATE_FRACTION * bow_v)
     adequate = [m for m in shapes
                 if m.bic - best_curved.bic <= BIC_MARGIN or left[m.name] <= tol]
-    win = min(adequate, key=lambda m: m.bic) if adequate else None
-    best_phys = min(physical, key=lambda m: m.bic) if physical else None
+    win = _likelier(min(adequate, key=lambda m: m.bic), adequate) if adequate else None
+    best_phys = _likelier(min(physical, key=lambda m: m.bic), physical) if physical else None
     ref = win or poly or best_curved
     strength = _bend(ref, line) / floor_v
     ctx_c = _context_capacitance(context)
@@ -199,15 +221,17 @@ def diagnose(averaged: AveragedCycle, figures: Figures, noise: NoiseFloor,
             signature="linear",
             reason="no-clear-margin" if evidence <= BIC_MARGIN else "below-resolution",
             strength=strength, curvature="none",
-            closest_cause=best_phys.name if lean else None,
+            closest_cause=CAUSE[best_phys.name] if lean else None,
             closest_cause_pct=100 * _bend(best_phys, line) / span if lean else None,
             **common)
 
     if win is not None and win.name != "relaxation-low":
-        return _physical(win, x, line, T, span, strength, left[win.name], ctx_c, common)
+        also = _also_consistent(win, adequate, T)
+        return _physical(win, x, line, T, span, strength, left[win.name], ctx_c,
+                         dict(common, **also))
 
     # unclassified: describe what it looks like
-    nearest = dict(closest_cause=best_phys.name if best_phys else None,
+    nearest = dict(closest_cause=CAUSE[best_phys.name] if best_phys else None,
                    closest_cause_pct=(100.0 * left[best_phys.name] / span if best_phys
                                       else None))
     if win is not None:  # an early relaxation with the slope starting low
@@ -256,6 +280,45 @@ def _bend(m: ModelFit | None, line: ModelFit) -> float:
     return float(np.max(np.abs(m.curve - line.curve))) if m is not None else 0.0
 
 
+def _likelier(m: ModelFit, pool: list[ModelFit]) -> ModelFit:
+    """``m``, or the common cause it mimics (:data:`LIKELIER`) when that is in ``pool``
+    and ``m`` beats it by no more than :data:`BIC_MARGIN`."""
+    other = next((p for p in pool if p.name == LIKELIER.get(m.name)), None)
+    return other if other is not None and other.bic - m.bic <= BIC_MARGIN else m
+
+
+def _also_consistent(win: ModelFit, adequate: list[ModelFit], T: float) -> dict:
+    """The other causes that explain the shape within :data:`BIC_MARGIN` of ``win``,
+    likeliest first, with the time constant or voltage coefficient each implies."""
+    causes: list[str] = []
+    tau = vc = None
+    for m in sorted(adequate, key=lambda m: m.bic):
+        cause = CAUSE.get(m.name)
+        if (cause is None or cause == CAUSE[win.name] or cause in causes
+                or m.bic - win.bic > BIC_MARGIN):
+            continue
+        causes.append(cause)
+        if m.name == "shunt-loading" and tau is None:
+            tau = T / m.theta
+        elif m.name == "dielectric-absorption" and tau is None:
+            tau = m.theta * T
+        elif m.name in ("voltage-coefficient", "capacitance-growing") and vc is None:
+            vc = _per_volt(m)
+    return dict(also_consistent=tuple(causes), also_tau_s=tau,
+                also_voltage_coefficient_per_v=vc)
+
+
+def _per_volt(m: ModelFit) -> float:
+    """Fractional change of the slope per volt at the ramp start, 1/V.
+
+    ``theta / a`` with ``a`` (the shape's coefficient) the starting slope times
+    T: ``k / a`` for the exponential form, ``g / a`` = ``beta / (1 -+ beta V0)``
+    for the square-root forms (``shapes``); negative for a growing capacitance.
+    """
+    sign = -1.0 if m.name == "capacitance-growing" else 1.0
+    return sign * m.theta / float(m.coef[1])
+
+
 def _context_capacitance(context: CircuitContext | None) -> float | None:
     c = None if context is None else context.effective_capacitance_f
     return float(c) if c is not None and math.isfinite(c) and c > 0 else None
@@ -277,13 +340,16 @@ def _physical(win: ModelFit, x: np.ndarray, line: ModelFit, T: float, span: floa
             slope_change_pct=100.0 * -math.expm1(-win.theta * (x[-1] - x[0])),
             bow_pct=bow_pct, unexplained_pct=unexplained, **common)
     if name == "voltage-coefficient":
-        # slope per volt at the ramp start: k / (s T) for the exponential form and
-        # g / (s T) for the square-root form, s T being the coefficient b
         decided = win.rival_chi2 is not None and win.rival_chi2 - win.chi2 > BIC_MARGIN
         return Diagnosis(
             signature=name, reason="", strength=strength, curvature="convex",
-            voltage_coefficient_per_v=win.theta / float(win.coef[1]),
+            voltage_coefficient_per_v=_per_volt(win),
             vc_form=win.variant if decided else "undecided",
+            bow_pct=bow_pct, unexplained_pct=unexplained, **common)
+    if name == "capacitance-growing":
+        return Diagnosis(
+            signature="voltage-coefficient", reason="", strength=strength,
+            curvature="concave", voltage_coefficient_per_v=_per_volt(win), vc_form="growing",
             bow_pct=bow_pct, unexplained_pct=unexplained, **common)
     return Diagnosis(  # dielectric absorption
         signature=name, reason="", strength=strength, curvature="concave",

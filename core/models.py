@@ -10,6 +10,9 @@ model                         shape, ``x = t / T`` (T = mean ramp time)         
                               ``a + b (exp(k x) - 1) / k`` (charge current growing
                               with V) and ``a + b (1 - sqrt(1 - 2 g x)) / g``
                               (``C = C0 (1 - beta V)`` at constant current, exact)
+``capacitance-growing``       ``a + b (sqrt(1 + 2 g x) - 1) / g``, ``g > 0``:          3
+                              ``C = C0 (1 + beta V)`` at constant current (exact),
+                              concave like the shunt and hard to tell from it
 ``dielectric-absorption``     ``a + b x - A exp(-(x - x0) / r)``, ``A > 0``,          4
                               ``r = tau / T < 1/2``: the early relaxation of a
                               Dow-model absorption branch after each reset
@@ -193,9 +196,9 @@ def fit_models(x: np.ndarray, y: np.ndarray, sigma: np.ndarray,
     -------
     dict
         ``"line"``, ``"shunt-loading"``, ``"voltage-coefficient"``,
-        ``"dielectric-absorption"``, ``"relaxation-low"`` (early relaxation
-        with the slope starting low) and ``"polynomial"``; a model whose fit
-        found no admissible solution is left out.
+        ``"capacitance-growing"``, ``"dielectric-absorption"``,
+        ``"relaxation-low"`` (early relaxation with the slope starting low) and
+        ``"polynomial"``; a model whose fit found no admissible solution is left out.
     """
     f = Fitter(x, y, 1.0 / sigma)
     one = np.ones_like(x)
@@ -222,6 +225,12 @@ def fit_models(x: np.ndarray, y: np.ndarray, sigma: np.ndarray,
         rival = max(cands, key=lambda m: m.chi2) if len(cands) == 2 else None
         out["voltage-coefficient"] = dataclasses.replace(
             best, rival_chi2=None if rival is None else rival.chi2)
+    # the capacitance may grow until the slope has fallen by e^MAX_RATE over the window
+    g_up = math.expm1(2.0 * MAX_RATE) / (2.0 * max(x_end, 1e-9))
+    grow = f.profile("capacitance-growing", const,
+                     lambda g: shapes.growing_capacitance(g, x), kmin, g_up)
+    if grow is not None:
+        out["capacitance-growing"] = grow
     # An early relaxation must still be visible at the window's start and must
     # not be finer than the bins.
     r_lo = max(x_start / 7.0, 2.0 * bin_width, 1e-4)

@@ -345,60 +345,43 @@ class ShapeDescription(ToDict):
 
 @dataclass(frozen=True)
 class Diagnosis(ToDict):
-    """What the shape of the averaged ramp says about its cause: numbers and codes.
-
-    The explanation and bench steps are written by ``report`` from these fields.
+    """What the shape of the averaged ramp says about its cause (``report`` words it).
 
     Attributes
     ----------
-    signature : str
+    signature, reason : str
         ``"linear"``, ``"shunt-loading"``, ``"voltage-coefficient"``,
-        ``"dielectric-absorption"`` or ``"unclassified"``.
-    reason : str
-        Why that signature: for ``linear`` ``"no-clear-margin"`` or
-        ``"below-resolution"``; for ``unclassified`` ``"relaxation-low"``
-        (slope starting low), ``"no-model-fits"``, ``"not-measurable"`` or
-        ``"fit-failed"``; empty for a physical cause.
-    strength : float
-        Peak deviation of the chosen model from the best-fit line, as a
-        multiple of the resolution floor (below 1: not above the noise).
-    curvature : str
-        ``"concave"`` (slope falls along the ramp), ``"convex"`` or ``"none"``.
-    tau_s : float or None
-        Time constant: ``R C`` for shunt loading, the relaxation time for
-        dielectric absorption (and for a slope starting low), seconds.
-    tau_fraction : float or None
-        ``tau_s`` / mean ramp time.
-    equivalent_shunt_ohm : float or None
-        ``tau_s / (C + C_probe)`` for shunt loading when the capacitance is known.
-    probe_match : str
-        What that shunt looks like (:func:`trueslope.core.circuit.probe_match`).
-    voltage_coefficient_per_v : float or None
-        Fractional rise of the slope per volt at the ramp start, 1/V.
-    vc_form : str or None
-        For ``voltage-coefficient``: ``"exp"`` (current rising with V fits
-        better), ``"sqrt"`` (C falling with V fits better) or ``"undecided"``.
-    slope_change_pct : float or None
-        For shunt loading: how much the slope falls across the window, %.
-    bow_pct : float or None
-        The chosen model's largest distance from the line, % of the fitted span.
-    floor_pct : float
-        The resolution floor the decision used, % of the fitted span.
-    closest_cause : str or None
-        For ``linear`` and ``unclassified``: the physical model nearest the data.
-    closest_cause_pct : float or None
-        For ``linear``: how far that cause would bend the ramp; for
-        ``unclassified``: what it leaves unexplained; % of the span.
-    shape : ShapeDescription or None
-        For ``unclassified`` with no model: the shape in numbers.
-    window_points : int
-        Bins of the averaged cycle the models were fitted to.
-    model_scores : dict of str to float
-        BIC of every model tried (lower is better).
-    evidence : float
-        BIC of the line minus BIC of the best curved model.
+        ``"dielectric-absorption"`` or ``"unclassified"``; why: for ``linear``
+        ``"no-clear-margin"`` or ``"below-resolution"``, for ``unclassified``
+        ``"relaxation-low"`` (slope starting low), ``"no-model-fits"``,
+        ``"not-measurable"`` or ``"fit-failed"``, else empty.
+    strength, curvature : float, str
+        Peak deviation of the chosen model from the best-fit line over the
+        resolution floor (below 1: not above the noise); ``"concave"`` (slope
+        falling along the ramp), ``"convex"`` or ``"none"``.
+    tau_s, tau_fraction, equivalent_shunt_ohm, probe_match : float or None, str
+        Time constant (``R C`` of a shunt; relaxation time of absorption or of a
+        slope starting low), s; over the ramp time; ``tau_s / (C + C_probe)`` for
+        a shunt when C is known, and what it looks like (``circuit.probe_match``).
+    voltage_coefficient_per_v, vc_form : float or None, str or None
+        Fractional change of the slope per volt at the ramp start, 1/V; which
+        form: ``"exp"`` (current rising with V), ``"sqrt"`` (C falling with V),
+        ``"undecided"`` between those, ``"growing"`` (C growing with V, concave).
+    slope_change_pct, bow_pct, floor_pct : float or None
+        The shunt's slope fall across the window; the model's largest distance
+        from the line; the resolution floor used; % (of the fitted span).
+    closest_cause, closest_cause_pct : str or None, float or None
+        For ``linear``: the nearest cause and how far it would bend the ramp;
+        for ``unclassified``: the nearest and what it leaves; % of the span.
+    shape, window_points, model_scores, evidence : ShapeDescription or None, int, ...
+        For ``unclassified`` with no model: the shape in numbers; bins fitted; BIC
+        of every model (lower is better); the line's minus the best curved's.
     unexplained_pct : float or None
-        Peak systematic residual left by the winning model, % of the span.
+        The peak systematic residual the winner leaves, % of the span.
+    also_consistent, also_tau_s, also_voltage_coefficient_per_v : tuple, float or None
+        Other causes explaining the shape with a BIC within ``diagnose.BIC_MARGIN``
+        of the signature's, likeliest first; such a cause's time constant (shunt
+        ``R C`` or absorption), s, or voltage coefficient as above, 1/V.
     """
 
     signature: str
@@ -421,6 +404,9 @@ class Diagnosis(ToDict):
     model_scores: dict[str, float] = field(default_factory=dict)
     evidence: float = 0.0
     unexplained_pct: float | None = None
+    also_consistent: tuple[str, ...] = ()
+    also_tau_s: float | None = None
+    also_voltage_coefficient_per_v: float | None = None
 
 
 @dataclass(frozen=True)

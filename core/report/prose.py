@@ -75,6 +75,11 @@ def explanation(d: Diagnosis) -> str:
                     f"{pct(d.closest_cause_pct)} of the span.")
         return (f"The ramp is straight to within what this capture resolves "
                 f"({pct(d.floor_pct)} of the span): {why}.{lean}")
+    return _explained(d) + _also_sentence(d)
+
+
+def _explained(d: Diagnosis) -> str:
+    """The winning physical cause in words."""
     if d.signature == "shunt-loading":
         r_txt = (f" With the capacitance given, that is {si(d.equivalent_shunt_ohm, 'Ω', 3)} "
                  f"across it." if d.equivalent_shunt_ohm is not None else
@@ -84,6 +89,14 @@ def explanation(d: Diagnosis) -> str:
                 f"with a resistance across it, time constant R C = {si(d.tau_s, 's', 3)} "
                 f"({d.tau_fraction:.3g} ramp times).{r_txt} The bow is {pct(d.bow_pct)} of "
                 f"the span.")
+    if d.signature == "voltage-coefficient" and d.vc_form == "growing":
+        return (f"The slope falls as the voltage rises, by about "
+                f"{pct(-100 * (d.voltage_coefficient_per_v or math.nan))} per volt: a "
+                f"capacitance that grows with voltage at constant current (for example a "
+                f"junction at the ramp node whose reverse bias shrinks as the ramp rises). "
+                f"A resistance across the capacitor bends a ramp much the same way, but here "
+                f"the shape fits the growing capacitance better by a clear margin. The bow is "
+                f"{pct(d.bow_pct)} of the span.")
     if d.signature == "voltage-coefficient":
         form = {"exp": "a charging current rising in proportion to the voltage fits better "
                        "than a capacitance falling in proportion to it",
@@ -102,7 +115,36 @@ def explanation(d: Diagnosis) -> str:
                 f"ramp), as charge soaks back into the dielectric (dielectric absorption, the "
                 f"Dow model's series R-C branches). The bow is {pct(d.bow_pct)} of the span; "
                 f"it would change with the repetition rate.")
-    # unclassified
+    return _unexplained(d)
+
+
+def _rival_words(d: Diagnosis, cause: str) -> str:
+    """A cause that also fits, named with its parameter."""
+    if cause == "voltage-coefficient":
+        vc = d.also_voltage_coefficient_per_v
+        if vc is not None and vc < 0:
+            return (f"a capacitance that grows with voltage (about {pct(-100 * vc)} per volt "
+                    f"at the ramp start)")
+        return (f"a voltage coefficient (the slope rising about {pct(100 * (vc or math.nan))} "
+                f"per volt)")
+    if cause == "shunt-loading":
+        return f"a resistance across the capacitor (R C about {si(d.also_tau_s, 's', 3)})"
+    return f"dielectric absorption (time constant about {si(d.also_tau_s, 's', 3)})"
+
+
+def _also_sentence(d: Diagnosis) -> str:
+    """The causes the data cannot rule out, said aloud."""
+    if not d.also_consistent:
+        return ""
+    names = " and with ".join(_rival_words(d, c) for c in d.also_consistent)
+    which = ("The first next check tells them apart" if len(d.also_consistent) == 1 else
+             "The first next checks tell them apart")
+    return (f" The shape is also consistent with {names}: at this bow and resolution both "
+            f"fit the averaged ramp almost equally well. {which}.")
+
+
+def _unexplained(d: Diagnosis) -> str:
+    """An unclassified shape in words."""
     if d.reason == "not-measurable":
         return (f"The shape could not be judged: the fit window holds too few usable points "
                 f"({d.window_points}) or no rise.")
@@ -175,8 +217,41 @@ NEXT_CHECKS: dict[str, tuple[str, ...]] = {
 }
 
 
+#: The bench step that tells a shunt from a capacitance growing with voltage.
+SHUNT_OR_GROWING_C = (
+    "To tell a resistance across the capacitor from a capacitance that grows with voltage, "
+    "re-capture at another charging current with the same swing (same thresholds): a "
+    "shunt's bow scales with the ramp time over R C, so halving the current about doubles "
+    "it, while a voltage coefficient's bow stays the same. Or change the swing and the "
+    "current together so the ramp time stays the same: a voltage coefficient's bow scales "
+    "with the swing, a shunt's does not.")
+
+#: Bench steps for a capacitance growing with voltage (a concave voltage coefficient).
+GROWING_CAPACITANCE_CHECKS = (
+    SHUNT_OR_GROWING_C,
+    "Look for a junction on the ramp node (a clamp or protection diode, a transistor's "
+    "collector, a JFET gate) whose reverse bias shrinks as the ramp rises: its capacitance "
+    "grows with the ramp voltage. Lift it, or use a lower-capacitance part, and re-capture.",
+    "Swap the timing capacitor for a C0G/NP0 ceramic or a polypropylene film part of the "
+    "same value and re-capture: if the bow stays, the capacitor is not the cause.",
+    "Re-capture at another repetition rate: dielectric absorption changes with the rate, a "
+    "voltage coefficient does not.",
+)
+
+
 def next_checks(d: Diagnosis) -> tuple[str, ...]:
-    """Bench steps that would confirm or rule out the cause found."""
+    """Bench steps that would confirm or rule out the cause found; when another cause
+    fits nearly as well, the step that tells the two apart comes first."""
+    if d.signature == "voltage-coefficient" and d.vc_form == "growing":
+        return GROWING_CAPACITANCE_CHECKS
+    checks = _cause_checks(d)
+    pair = {d.signature, *d.also_consistent}
+    if {"shunt-loading", "voltage-coefficient"} <= pair:
+        checks = (SHUNT_OR_GROWING_C,) + checks
+    return checks
+
+
+def _cause_checks(d: Diagnosis) -> tuple[str, ...]:
     checks = NEXT_CHECKS[d.signature]
     if d.signature != "shunt-loading" or d.equivalent_shunt_ohm is None:
         return checks
