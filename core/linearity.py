@@ -30,7 +30,7 @@ from .noise import (SMOOTH_ORDER, excess_scatter, robust_sigma, smoother_gain,
                     smoother_kept_fraction, smoothing_window)
 from .results import (AveragedCycle, CycleArrays, CycleFigures, Figures, LineFit, NoiseFloor,
                       PhaseSums, Segmentation, SweepErrors)
-from .segment import interpolate_crossing
+from .edges import interpolate_crossing
 
 #: The resolution floor is this many standard deviations of the smoothed averaged residual.
 FLOOR_SIGMAS = 4.0

@@ -84,6 +84,13 @@ class Segmentation(ToDict):
         Counts; partial cycles at the ends of the record are left out.
     source : str
         ``"signal"`` or ``"sync"``: what the reset edges came from.
+    spike_samples : ndarray of int
+        Isolated spikes found (sample indices), kept out of segmentation and fits.
+    clipped_top_v, clipped_bottom_v : float or None
+        Where the record is clipped (true polarity), or None.
+    unsteady_start_s, unsteady_end_s : (float, float) or None
+        A start (power-up, settling) or end (generator switched off) left out
+        because the waveform there is not the steady one: its time span.
     """
 
     direction: str
@@ -95,6 +102,11 @@ class Segmentation(ToDict):
     full_cycles: int
     partial_cycles: int
     source: str = "signal"
+    spike_samples: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.int64))
+    clipped_top_v: float | None = None
+    clipped_bottom_v: float | None = None
+    unsteady_start_s: tuple[float, float] | None = None
+    unsteady_end_s: tuple[float, float] | None = None
 
     @property
     def ramp_time_s(self) -> np.ndarray:
@@ -216,6 +228,7 @@ class Figures(ToDict):
     """Summary figures of the capture, from the averaged cycle.
 
     See the README section "Measurement definitions" for every convention.
+    ``bounds`` names the figures that touch clipped samples: bounds, not values.
     """
 
     direction: str
@@ -249,6 +262,7 @@ class Figures(ToDict):
     window_start_s: float
     window_end_s: float
     fitted_span_v: float
+    bounds: tuple[str, ...] = ()
 
 
 

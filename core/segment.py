@@ -14,6 +14,7 @@ import dataclasses
 import numpy as np
 
 from .artefacts import Clipping, find_clipping, find_spikes, without_spikes
+from .edges import corners, interpolate_crossing, local_crossing, window_argext
 from .errors import NoFullCycleError, NotASawtoothError
 from .levels import ramp_extremes, state_levels
 from .noise import adc_step, estimate_noise_rms
@@ -24,18 +25,11 @@ LOWER_THRESHOLD_FRACTION = 0.30
 UPPER_THRESHOLD_FRACTION = 0.70
 #: A sawtooth's slow edge must take at least this many times as long as its fast edge.
 MIN_EDGE_RATIO = 4.0
-
-
-def interpolate_crossing(x: np.ndarray, i: np.ndarray, level: float) -> np.ndarray:
-    """Fractional sample index where the segment from ``i - 1`` to ``i`` crosses ``level``.
-
-    Linear interpolation, ``(i - 1) + (level - x[i-1]) / (x[i] - x[i-1])``,
-    clipped to the segment; either direction of crossing.
-    """
-    a = x[i - 1]
-    b = x[i]
-    den = np.where(a != b, b - a, 1.0)
-    return (i - 1) + np.clip((level - a) / den, 0.0, 1.0)
+#: A fast edge whose 90-10 % crossings lie closer than this (samples) is not resolved.
+UNRESOLVED_EDGE_SAMPLES = 1.5
+#: Below this 90-10 % time (samples) the edge's corners are rounded by the sampling: the
+#: ramp's ends are found where the ramp's own line meets the edge's line.
+SHARP_EDGE_SAMPLES = 4.0
 
 
 def _crossings_up(x: np.ndarray, level: float) -> tuple[np.ndarray, np.ndarray]:
@@ -131,40 +125,6 @@ def _transitions(x: np.ndarray, lower: float, upper: float) -> tuple[np.ndarray,
     k = np.searchsorted(leave_hi, down_end, side="left") - 1
     down_start = np.where(k >= 0, leave_hi[np.maximum(k, 0)], 0)
     return up_end, up_start, down_end, down_start
-
-
-def _local_crossing(x: np.ndarray, lo: np.ndarray, hi: np.ndarray, level: float,
-                    which: str) -> np.ndarray:
-    """Fractional index of the first or last downward crossing of ``level`` with the
-    crossing sample i in (lo, hi], per window; NaN where there is none."""
-    n = x.size
-    lo = np.clip(lo, 0, n - 1)
-    hi = np.clip(hi, 0, n - 1)
-    w = int(np.max(hi - lo)) + 1 if lo.size else 1
-    idx = np.minimum(lo[:, None] + np.arange(w)[None, :], n - 1)
-    X = x[idx]
-    below = X < level
-    cross = below[:, 1:] & ~below[:, :-1]
-    cross &= (idx[:, 1:] <= hi[:, None])
-    has = cross.any(axis=1)
-    if which == "first":
-        j = np.argmax(cross, axis=1)
-    else:
-        j = cross.shape[1] - 1 - np.argmax(cross[:, ::-1], axis=1)
-    i = idx[np.arange(idx.shape[0]), j + 1]
-    out = interpolate_crossing(x, np.maximum(i, 1), level)
-    return np.where(has, out, np.nan)
-
-
-def _window_argext(x: np.ndarray, starts: np.ndarray, width: int, kind: str) -> np.ndarray:
-    """Index of the max (or min) of x over [start, start + width) for each start."""
-    n = x.size
-    starts = np.clip(starts, 0, max(0, n - 1))
-    offs = np.arange(width)
-    idx = np.minimum(starts[:, None] + offs[None, :], n - 1)
-    vals = x[idx]
-    j = np.argmax(vals, axis=1) if kind == "max" else np.argmin(vals, axis=1)
-    return idx[np.arange(idx.shape[0]), j]
 
 
 def segment(v: np.ndarray, sample_interval_s: float, t0_s: float = 0.0,
@@ -340,7 +300,7 @@ def _segment_signal(x: np.ndarray, levels: StateLevels, sample_interval_s: float
     fast = int(np.max(down_end - down_start)) if down_end.size else 1
     approx_period = float(np.median(np.diff(down_end))) if down_end.size > 1 else float(n)
     width = int(min(max(4, 2 * fast + int(0.02 * approx_period)), max(4, int(0.25 * approx_period))))
-    t50 = _local_crossing(x, down_start, down_end, mid, "last")
+    t50 = local_crossing(x, down_start, down_end, mid, "last")
     ok = np.isfinite(t50)
     down_end, down_start, t50 = down_end[ok], down_start[ok], t50[ok]
     if down_end.size < 2:
@@ -357,8 +317,8 @@ def _segment_signal(x: np.ndarray, levels: StateLevels, sample_interval_s: float
 def _build(xm: np.ndarray, lo_m: float, span: float, levels: StateLevels, direction: str,
            source: str, dt: float, t0: float, reset_idx: np.ndarray, i50: np.ndarray,
            before: np.ndarray, after: np.ndarray, width: int,
-           period_samples: float, clipped: tuple[bool, bool] = (False, False)
-           ) -> Segmentation:
+           period_samples: float, clipped: tuple[bool, bool] = (False, False),
+           edge_mid: np.ndarray | None = None) -> Segmentation:
     """Retrace extent and ramp boundaries of every cycle, shared by both segmenters.
 
     Parameters
@@ -376,6 +336,9 @@ def _build(xm: np.ndarray, lo_m: float, span: float, levels: StateLevels, direct
         threshold and the first below the lower one, or the sync edge twice).
     width : int
         How far, in samples, to look around each edge for its crossings.
+    edge_mid : ndarray, optional
+        The ramp's own 50 % crossing at each edge where it differs from ``reset_idx``
+        (segmenting from a sync channel).
     clipped : (bool, bool)
         The record is clipped at its low / high level (measurement frame): a flat
         stretch there is the clipping, not a dwell or a plateau, and stays in the ramp.
@@ -388,17 +351,30 @@ def _build(xm: np.ndarray, lo_m: float, span: float, levels: StateLevels, direct
     the retrace.
     """
     n = xm.size
-    t90 = _local_crossing(xm, before - width, i50, lo_m + 0.9 * span, "last")
-    t10 = _local_crossing(xm, i50 - 1, after + width, lo_m + 0.1 * span, "first")
+    t90 = local_crossing(xm, before - width, i50, lo_m + 0.9 * span, "last")
+    t10 = local_crossing(xm, i50 - 1, after + width, lo_m + 0.1 * span, "first")
     fall = t10 - t90
     ext = 0.125 * fall
     ok = np.isfinite(fall)
+    # An edge that falls within about one sample interval is not resolved: the reset
+    # happened somewhere between two samples, and the 90 % and 10 % crossings only say
+    # which two. Its best (unbiased) instant is the 50 % crossing; its retrace, none
+    # that the sampling can show.
+    unresolved = ok & (fall < UNRESOLVED_EDGE_SAMPLES)
+    mid = reset_idx if edge_mid is None else np.where(np.isfinite(edge_mid), edge_mid, reset_idx)
+    t90 = np.where(unresolved, mid + ext, t90)
+    t10 = np.where(unresolved, mid - ext, t10)
     edge = int((after - before).max(initial=0))
-    peak = _window_argext(xm, before - width + 1, width + edge, "max").astype(float)
-    trough = _window_argext(xm, np.maximum(peak.astype(np.int64), before), width + 1 + edge,
+    peak = window_argext(xm, before - width + 1, width + edge, "max").astype(float)
+    trough = window_argext(xm, np.maximum(peak.astype(np.int64), before), width + 1 + edge,
                             "min").astype(float)
     peak = np.where(ok, t90 - ext, peak)
     trough = np.where(ok, t10 + ext, trough)
+    sharp = ok & ~unresolved & (fall < SHARP_EDGE_SAMPLES)
+    if np.any(ok & ~unresolved):
+        tol = 4.0 * estimate_noise_rms(xm) + (adc_step(xm) or 0.0) + 1e-3 * span
+        peak, trough = corners(xm, peak, trough, t90, t10, lo_m, span, ok & ~unresolved,
+                                sharp, period_samples, tol)
     trough = np.maximum(trough, peak + 1e-3)
     starts = trough if clipped[0] else _skip_low_dwell(xm, lo_m, span, trough,
                                                        np.append(peak[1:], n), period_samples)
@@ -458,7 +434,7 @@ def _segment_with_sync(x: np.ndarray, s: np.ndarray, dt: float, t0: float,
         raise NoFullCycleError("fewer than two full cycles between sync edges")
     lo_m = levels.low_v if direction == "rising" else -levels.high_v
     # the ramp's own fast edge near each sync edge gives the retrace's extent
-    t50 = _local_crossing(xm, edges - width, edges + width, lo_m + 0.5 * span, "last")
+    t50 = local_crossing(xm, edges - width, edges + width, lo_m + 0.5 * span, "last")
     i50 = np.where(np.isfinite(t50), np.ceil(np.nan_to_num(t50)), edges).astype(np.int64)
     return _build(xm, lo_m, span, levels, direction, "sync", dt, t0, reset_idx, i50,
-                  edges, edges, width, float(period))
+                  edges, edges, width, float(period), edge_mid=t50)
