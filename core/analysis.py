@@ -2,8 +2,10 @@
 
 Calls only, one module per step::
 
-    segment.segment -> fit.cycle_pass -> linearity.build_cycles (outliers marked)
-    -> linearity.average_cycle -> linearity.sweep_errors -> linearity.summarise
+    segment.segment (spikes bridged, clipping noted) -> fit.cycle_pass
+    -> steady.steady_state (an unsteady start or end left out)
+    -> linearity.build_cycles (outliers marked) -> fit.cycle_pass again when cycles were
+    left out -> linearity.average_cycle -> linearity.sweep_errors -> linearity.summarise
     -> diagnose.diagnose -> selfcheck.check_context
 """
 
@@ -15,16 +17,19 @@ from pathlib import Path
 
 import numpy as np
 
+from .artefacts import find_clipping, without_spikes
 from .capture import CancelFn, Capture, ProgressFn, stop_if_cancelled
 from .diagnose import diagnose
 from .errors import AnalysisError, NoFullCycleError, NotASawtoothError, TrueslopeWarning
 from .fit import cycle_pass
 from .linearity import average_cycle, build_cycles, summarise, sweep_errors
 from .noise import adc_step, estimate_noise_rms
-from .results import Analysis, Segmentation
+from .results import Analysis, Figures, Segmentation
 from .segment import segment
 from .selfcheck import check_context
 from .settings import Settings
+from .steady import ClipWindow, clip_window, steady_state, subset, subset_cycles
+from .units import format_si
 
 #: Most phase bins of the averaged cycle.
 MAX_PHASE_BINS = 2000
@@ -69,17 +74,66 @@ def phase_bins_for(ramp_samples: float, settings: Settings) -> int:
     return int(min(MAX_PHASE_BINS, max(16, math.floor(ramp_samples))))
 
 
-def _warnings(capture: Capture, seg: Segmentation, nl: float, floor: float, n_out: int,
-              left_out: bool) -> tuple[TrueslopeWarning, ...]:
+def _times(times_s: np.ndarray, most: int = 5) -> str:
+    shown = ", ".join(format_si(float(t), "s", 4) for t in times_s[:most])
+    return shown + (f" and {times_s.size - most} more" if times_s.size > most else "")
+
+
+def _warnings(capture: Capture, seg: Segmentation, figures: Figures, n_out: int,
+              left_out: bool, clip: ClipWindow | None, settings: Settings,
+              shortest_ramp_s: float) -> tuple[TrueslopeWarning, ...]:
+    """The warnings of an analysis, each with its code from ``errors.WARNING_CODES``."""
     out = list(capture.warnings)
+    nl, floor = figures.nonlinearity_pct, figures.nonlinearity_floor_pct
+    t0 = capture.t0_s
+    if seg.unsteady_start_s is not None:
+        a, b = seg.unsteady_start_s
+        out.append(TrueslopeWarning(
+            "unsteady-start", f"the record starts before the ramp is steady (a power-up or a "
+                              f"probe settling): {format_si(a, 's', 4)} to {format_si(b, 's', 4)} "
+                              f"was left out"))
+    if seg.unsteady_end_s is not None:
+        a, b = seg.unsteady_end_s
+        out.append(TrueslopeWarning(
+            "unsteady-end", f"the record ends after the ramp stops being steady (the "
+                            f"generator switched off or changed): {format_si(a, 's', 4)} to "
+                            f"{format_si(b, 's', 4)} was left out"))
+    if seg.spike_samples.size:
+        times = t0 + seg.spike_samples * capture.sample_interval_s
+        out.append(TrueslopeWarning(
+            "glitches", f"{seg.spike_samples.size} isolated spike sample(s) at {_times(times)} "
+                        f"(interference?) were bridged: they make no reset and are kept out "
+                        f"of the fits"))
+    if clip is not None:
+        level = seg.clipped_top_v if seg.clipped_top_v is not None else seg.clipped_bottom_v
+        out.append(TrueslopeWarning(
+            "clipped", f"the record is clipped at {format_si(level or 0.0, 'V', 4)} (the "
+                       f"scope's range is too small): about {100 * clip.lost_fraction:.3g} % "
+                       f"of each ramp is lost; the fit window runs "
+                       f"{format_si(figures.window_start_s, 's', 4)} to "
+                       f"{format_si(figures.window_end_s, 's', 4)} from the ramp start so no "
+                       f"clipped sample is fitted, and {', '.join(figures.bounds)} are bounds, "
+                       f"not values"))
+    if settings.window_s is not None and settings.window_s[1] > shortest_ramp_s:
+        out.append(TrueslopeWarning(
+            "window-clipped", f"the fit window asked for ends at "
+                              f"{format_si(settings.window_s[1], 's', 4)}, past the end of the "
+                              f"shortest ramp ({format_si(shortest_ramp_s, 's', 4)}): each ramp "
+                              f"is fitted up to its own end"))
     if nl < floor:
         out.append(TrueslopeWarning(
             "below-resolution",
             f"the nonlinearity ({nl:.3g} %) is below what this capture can resolve "
             f"({floor:.3g} %): the ramp is straight to within the noise"))
-    if seg.full_cycles < 3:
+    if seg.full_cycles == 1:
         out.append(TrueslopeWarning(
-            "few-cycles", f"only {seg.full_cycles} full cycle(s): figures rest on little data"))
+            "single-cycle", "only one full cycle: there is no spread between cycles to "
+                            "estimate, so the slope's interval is the least-squares one of that "
+                            "cycle, no cycle can be judged an outlier, and the resolution floor "
+                            "rests on the sample-to-sample noise alone"))
+    elif seg.full_cycles < 3:
+        out.append(TrueslopeWarning(
+            "few-cycles", f"only {seg.full_cycles} full cycles: figures rest on little data"))
     if n_out:
         out.append(TrueslopeWarning(
             "outlying-cycles", f"{n_out} cycle(s) differ markedly from the rest (marked in "
@@ -122,43 +176,62 @@ def analyse(capture: Capture, settings: Settings | None = None,
         seg = segment(v, dt, t0)
     report(0.15)
     mirrored = seg.direction == "falling"
-    x = -v if mirrored else v
+    clean = without_spikes(np.asarray(v, dtype=float), seg.spike_samples)
+    x = -clean if mirrored else clean
+    clip = None
+    if seg.clipped_top_v is not None or seg.clipped_bottom_v is not None:
+        clip = clip_window(find_clipping(x).mask, seg, dt, t0)
+    limits = None if clip is None else (clip.start_limit_s, clip.end_limit_s)
     if settings.window_s is not None and settings.window_s[0] >= float(np.min(seg.ramp_time_s)):
         raise AnalysisError(
             f"the fit window starts at {settings.window_s[0]:.4g} s, after the end of the "
             f"shortest ramp ({np.min(seg.ramp_time_s):.4g} s)")
     bins = phase_bins_for(float(np.mean(seg.ramp_time_s)) / dt, settings)
     trim, window = settings.trim_fraction, settings.window_s
-    cyc, sums = cycle_pass(x, dt, t0, seg, trim, window, bins,
-                           progress=lambda f: report(0.15 + 0.7 * f), cancel=cancel)
-    cycles = build_cycles(cyc, seg, -1.0 if mirrored else 1.0)
+
+    def kernel(s: Segmentation, lo: float, span: float):
+        return cycle_pass(x, dt, t0, s, trim, window, bins, limits_s=limits, cancel=cancel,
+                          progress=lambda f: report(lo + span * f))
+
+    cyc, sums = kernel(seg, 0.15, 0.6)
+    noise_v, step = estimate_noise_rms(x), adc_step(v)
+    steady = steady_state(x, dt, t0, seg, cyc, noise_v, step)
+    seg = dataclasses.replace(subset(seg, steady.keep), unsteady_start_s=steady.start_s,
+                              unsteady_end_s=steady.end_s)
+    cyc_all = subset_cycles(cyc, steady.keep)
+    cycles = build_cycles(cyc_all, seg, -1.0 if mirrored else 1.0)
     keep = ~np.array([c.outlier for c in cycles], dtype=bool)
     n_out = int(np.count_nonzero(~keep))
-    if n_out and np.count_nonzero(keep) >= 2:
-        # an outlying cycle (a false trigger, a glitch) would bend the coherent average:
-        # average the others; every cycle stays in the cycle list, marked
+    if not (n_out and np.count_nonzero(keep) >= 2):
+        keep = np.ones(len(cycles), dtype=bool)
+    if not np.all(steady.keep) or not np.all(keep):
+        # outlying cycles (a false trigger, a glitch) and unsteady ones would bend the
+        # coherent average: average the others; outliers stay in the cycle list, marked
         sub = dataclasses.replace(seg, ramp_start_s=seg.ramp_start_s[keep],
                                   ramp_end_s=seg.ramp_end_s[keep],
                                   retrace_end_s=seg.retrace_end_s[keep])
-        cyc, sums = cycle_pass(x, dt, t0, sub, trim, window, bins,
-                               progress=lambda f: report(0.85 + 0.05 * f), cancel=cancel)
+        cyc, sums = kernel(sub, 0.75, 0.15)
     else:
-        keep = np.ones(len(cycles), dtype=bool)
+        cyc = cyc_all
     av, noise = average_cycle(sums, float(np.mean(seg.ramp_time_s[keep])), trim, window,
-                              mirrored, estimate_noise_rms(x), adc_step(v))
-    figures = summarise(seg, keep, cyc, av, noise, sweep_errors(av), trim)
+                              mirrored, noise_v, step, limits_s=limits)
+    bounds: tuple[str, ...] = ()
+    if clip is not None:
+        bounds = (("start_v",) if clip.at_start else ()) + (("end_v",) if clip.at_end else ()) \
+            + ("amplitude_v", "ramp_time_s")
+    figures = summarise(seg, keep, cyc, av, noise, sweep_errors(av), trim, bounds)
     diagnosis = diagnose(av, figures, noise, settings.context)
     context_check = (check_context(figures, diagnosis, settings.context)
                      if settings.context is not None else None)
     report(1.0)
+    warnings = _warnings(capture, seg, figures, n_out,
+                         bool(np.count_nonzero(keep) < len(cycles)), clip, settings,
+                         float(np.min(seg.ramp_time_s)))
     return Analysis(source=capture.source, channel=name, samples=capture.samples,
                     sample_interval_s=dt, settings=settings, segmentation=seg,
                     figures=figures, cycles=cycles, averaged=av, noise=noise,
                     diagnosis=diagnosis, context_check=context_check,
-                    warnings=_warnings(capture, seg, figures.nonlinearity_pct,
-                                       noise.nonlinearity_floor_pct, n_out,
-                                       bool(np.count_nonzero(keep) < len(cycles))),
-                    metadata=dict(capture.metadata))
+                    warnings=warnings, metadata=dict(capture.metadata))
 
 
 def load_and_analyse(path: str | Path, settings: Settings | None = None,

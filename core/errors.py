@@ -153,6 +153,16 @@ WARNING_CODES: dict[str, str] = {
     # measuring
     "below-resolution": "the nonlinearity is below what the capture can resolve",
     "few-cycles": "fewer than three full cycles: figures rest on little data",
+    "single-cycle": "one full cycle: no spread between cycles, no outliers, a floor from the "
+                    "sample noise alone",
+    "unsteady-start": "the record starts before the ramp is steady; that stretch was left out",
+    "unsteady-end": "the record ends after the ramp stops being steady; that stretch was "
+                    "left out",
+    "glitches": "isolated spike samples were bridged: no reset counted, kept out of the fits",
+    "clipped": "the record is clipped by the scope's range; the fit avoids clipped samples "
+               "and the figures they touch are bounds",
+    "window-clipped": "the fit window asked for runs past the ramp's end; each ramp is fitted "
+                      "to its own end",
     "outlying-cycles": "some cycles differ markedly from the rest and are left out of the "
                        "averaged figures",
 }

@@ -75,16 +75,26 @@ def fit_line(t_s: np.ndarray, v: np.ndarray, weights: np.ndarray | None = None) 
                    residual_rms_v=float(np.sqrt(ssr / n_eff)), n=int(t.size))
 
 
-def window_bounds(ramp_time_s, trim: float, window_s: tuple[float, float] | None):
+def window_bounds(ramp_time_s, trim: float, window_s: tuple[float, float] | None,
+                  limits_s: tuple[float | None, float | None] | None = None):
     """Fit window ``(start, end)`` in seconds from the ramp start, for one ramp time or many.
 
-    ``trim`` of the ramp at each end, or the explicit ``window_s`` cut at the ramp's end.
+    ``trim`` of the ramp at each end, or the explicit ``window_s`` cut at the ramp's
+    end; then kept within ``limits_s`` (earliest start, latest end; None for no limit),
+    which keep clipped samples out of the fit.
     """
     if window_s is None:
-        return trim * ramp_time_s, (1.0 - trim) * ramp_time_s
-    a = np.full_like(np.asarray(ramp_time_s, dtype=float), float(window_s[0]))
-    b = np.minimum(float(window_s[1]), ramp_time_s)
-    return (a if a.ndim else float(a)), b
+        a, b = trim * ramp_time_s, (1.0 - trim) * ramp_time_s
+    else:
+        a = np.full_like(np.asarray(ramp_time_s, dtype=float), float(window_s[0]))
+        a = a if a.ndim else float(a)
+        b = np.minimum(float(window_s[1]), ramp_time_s)
+    if limits_s is not None:
+        if limits_s[0] is not None:
+            a = np.maximum(a, limits_s[0])
+        if limits_s[1] is not None:
+            b = np.minimum(b, limits_s[1])
+    return a, b
 
 
 def to_unit_interval(x: np.ndarray) -> np.ndarray:
@@ -141,6 +151,7 @@ class LegendreSeries:
 def cycle_pass(x: np.ndarray, dt: float, t0: float, seg: Segmentation, trim: float,
                window_s: tuple[float, float] | None, bins: int,
                progress: ProgressFn | None = None, cancel: CancelFn | None = None,
+               limits_s: tuple[float | None, float | None] | None = None,
                ) -> tuple[CycleArrays, PhaseSums]:
     """Fit every cycle and accumulate the phase-binned average, block by block.
 
@@ -154,6 +165,8 @@ def cycle_pass(x: np.ndarray, dt: float, t0: float, seg: Segmentation, trim: flo
     trim, window_s : fit window (see :class:`~trueslope.core.settings.Settings`).
     bins : int
         Phase bins of the averaged cycle.
+    limits_s : (float or None, float or None), optional
+        Earliest start and latest end of the window (seconds from the ramp start).
 
     Returns
     -------
@@ -181,7 +194,7 @@ def cycle_pass(x: np.ndarray, dt: float, t0: float, seg: Segmentation, trim: flo
     if np.any(r1 - r0 < 4):
         raise AnalysisError("a ramp holds fewer than 4 samples: the capture is too coarse "
                             "(sample faster, or show fewer cycles)")
-    wa, wb = window_bounds(T, trim, window_s)
+    wa, wb = window_bounds(T, trim, window_s, limits_s)
     w0 = np.clip(np.ceil(ps + wa / dt - 1e-9).astype(np.int64), r0, r1)
     w1 = np.clip(np.floor(ps + wb / dt + 1e-9).astype(np.int64) + 1, w0, r1)
     if np.any(w1 - w0 < 3):

@@ -42,7 +42,8 @@ MAX_DERIVATIVE_DEGREE = 6
 
 def average_cycle(sums: PhaseSums, ramp_time_s: float, trim: float,
                   window_s: tuple[float, float] | None, mirrored: bool,
-                  noise_fallback_v: float, step_v: float | None
+                  noise_fallback_v: float, step_v: float | None,
+                  limits_s: tuple[float | None, float | None] | None = None
                   ) -> tuple[AveragedCycle, NoiseFloor]:
     """Build the averaged cycle, fit its line, smooth its residual, find the noise floor.
 
@@ -60,6 +61,8 @@ def average_cycle(sums: PhaseSums, ramp_time_s: float, trim: float,
         Noise of one sample to use when too few bins hold two or more samples.
     step_v : float or None
         ADC step found in the samples.
+    limits_s : (float or None, float or None), optional
+        Earliest start and latest end of the fit window (clipping).
     """
     n = sums.count
     keep = n > 0
@@ -77,7 +80,7 @@ def average_cycle(sums: PhaseSums, ramp_time_s: float, trim: float,
         sd = np.full(cnt.size, noise_rms)
     stderr = np.maximum(sd, 1e-15) / np.sqrt(cnt)
     t = u * ramp_time_s
-    ta, tb = window_bounds(ramp_time_s, trim, window_s)
+    ta, tb = window_bounds(ramp_time_s, trim, window_s, limits_s)
     ta, tb = float(ta), float(tb)
     inw = (t >= ta) & (t <= tb)
     if np.count_nonzero(inw) < SMOOTH_ORDER + 3:
@@ -248,7 +251,8 @@ def build_cycles(cyc: CycleArrays, seg: Segmentation, sign: float) -> tuple[Cycl
 
 
 def summarise(seg: Segmentation, kept: np.ndarray, cyc: CycleArrays, av: AveragedCycle,
-              noise: NoiseFloor, sweep: SweepErrors, trim: float) -> Figures:
+              noise: NoiseFloor, sweep: SweepErrors, trim: float,
+              bounds: tuple[str, ...] = ()) -> Figures:
     """The summary figures of a capture, in true polarity.
 
     Parameters
@@ -262,6 +266,8 @@ def summarise(seg: Segmentation, kept: np.ndarray, cyc: CycleArrays, av: Average
         The averaged cycle, its noise floor and sweep errors.
     trim : float
         The trim fraction in force.
+    bounds : tuple of str
+        Figures that touch clipped samples (bounds, not values).
     """
     sign = -1.0 if av.mirrored else 1.0
     fit = av.fit
@@ -293,4 +299,4 @@ def summarise(seg: Segmentation, kept: np.ndarray, cyc: CycleArrays, av: Average
         nonlinearity_floor_pct=noise.nonlinearity_floor_pct,
         below_floor=bool(nl < noise.nonlinearity_floor_pct),
         trim_fraction=trim, window_start_s=av.window_start_s,
-        window_end_s=av.window_end_s, fitted_span_v=fitted_span)
+        window_end_s=av.window_end_s, fitted_span_v=fitted_span, bounds=bounds)

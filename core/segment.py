@@ -14,7 +14,8 @@ import dataclasses
 import numpy as np
 
 from .artefacts import Clipping, find_clipping, find_spikes, without_spikes
-from .edges import corners, interpolate_crossing, local_crossing, window_argext
+from .edges import (fast_corners, interpolate_crossing, local_crossing, slow_corners,
+                    window_argext)
 from .errors import NoFullCycleError, NotASawtoothError
 from .levels import ramp_extremes, state_levels
 from .noise import adc_step, estimate_noise_rms
@@ -25,11 +26,9 @@ LOWER_THRESHOLD_FRACTION = 0.30
 UPPER_THRESHOLD_FRACTION = 0.70
 #: A sawtooth's slow edge must take at least this many times as long as its fast edge.
 MIN_EDGE_RATIO = 4.0
-#: A fast edge whose 90-10 % crossings lie closer than this (samples) is not resolved.
-UNRESOLVED_EDGE_SAMPLES = 1.5
-#: Below this 90-10 % time (samples) the edge's corners are rounded by the sampling: the
-#: ramp's ends are found where the ramp's own line meets the edge's line.
-SHARP_EDGE_SAMPLES = 4.0
+#: Below this 90-10 % time (samples) sampling cuts the edge's corners (or misses the edge
+#: altogether): the ramp's ends come from the steady reset levels (``edges.fast_corners``).
+FAST_EDGE_SAMPLES = 4.0
 
 
 def _crossings_up(x: np.ndarray, level: float) -> tuple[np.ndarray, np.ndarray]:
@@ -317,8 +316,7 @@ def _segment_signal(x: np.ndarray, levels: StateLevels, sample_interval_s: float
 def _build(xm: np.ndarray, lo_m: float, span: float, levels: StateLevels, direction: str,
            source: str, dt: float, t0: float, reset_idx: np.ndarray, i50: np.ndarray,
            before: np.ndarray, after: np.ndarray, width: int,
-           period_samples: float, clipped: tuple[bool, bool] = (False, False),
-           edge_mid: np.ndarray | None = None) -> Segmentation:
+           period_samples: float, clipped: tuple[bool, bool] = (False, False)) -> Segmentation:
     """Retrace extent and ramp boundaries of every cycle, shared by both segmenters.
 
     Parameters
@@ -336,9 +334,6 @@ def _build(xm: np.ndarray, lo_m: float, span: float, levels: StateLevels, direct
         threshold and the first below the lower one, or the sync edge twice).
     width : int
         How far, in samples, to look around each edge for its crossings.
-    edge_mid : ndarray, optional
-        The ramp's own 50 % crossing at each edge where it differs from ``reset_idx``
-        (segmenting from a sync channel).
     clipped : (bool, bool)
         The record is clipped at its low / high level (measurement frame): a flat
         stretch there is the clipping, not a dwell or a plateau, and stays in the ramp.
@@ -356,25 +351,19 @@ def _build(xm: np.ndarray, lo_m: float, span: float, levels: StateLevels, direct
     fall = t10 - t90
     ext = 0.125 * fall
     ok = np.isfinite(fall)
-    # An edge that falls within about one sample interval is not resolved: the reset
-    # happened somewhere between two samples, and the 90 % and 10 % crossings only say
-    # which two. Its best (unbiased) instant is the 50 % crossing; its retrace, none
-    # that the sampling can show.
-    unresolved = ok & (fall < UNRESOLVED_EDGE_SAMPLES)
-    mid = reset_idx if edge_mid is None else np.where(np.isfinite(edge_mid), edge_mid, reset_idx)
-    t90 = np.where(unresolved, mid + ext, t90)
-    t10 = np.where(unresolved, mid - ext, t10)
     edge = int((after - before).max(initial=0))
     peak = window_argext(xm, before - width + 1, width + edge, "max").astype(float)
     trough = window_argext(xm, np.maximum(peak.astype(np.int64), before), width + 1 + edge,
                             "min").astype(float)
     peak = np.where(ok, t90 - ext, peak)
     trough = np.where(ok, t10 + ext, trough)
-    sharp = ok & ~unresolved & (fall < SHARP_EDGE_SAMPLES)
-    if np.any(ok & ~unresolved):
-        tol = 4.0 * estimate_noise_rms(xm) + (adc_step(xm) or 0.0) + 1e-3 * span
-        peak, trough = corners(xm, peak, trough, t90, t10, lo_m, span, ok & ~unresolved,
-                                sharp, period_samples, tol)
+    tol = 4.0 * estimate_noise_rms(xm) + (adc_step(xm) or 0.0) + 1e-3 * span
+    fast = ok & (fall < FAST_EDGE_SAMPLES)
+    if np.any(ok & ~fast):
+        peak, trough = slow_corners(xm, peak, trough, t90, t10, lo_m, span, ok & ~fast,
+                                    period_samples, tol)
+    if np.any(fast):
+        peak, trough = fast_corners(xm, peak, trough, t90, t10, fast, period_samples, tol)
     trough = np.maximum(trough, peak + 1e-3)
     starts = trough if clipped[0] else _skip_low_dwell(xm, lo_m, span, trough,
                                                        np.append(peak[1:], n), period_samples)
@@ -437,4 +426,4 @@ def _segment_with_sync(x: np.ndarray, s: np.ndarray, dt: float, t0: float,
     t50 = local_crossing(xm, edges - width, edges + width, lo_m + 0.5 * span, "last")
     i50 = np.where(np.isfinite(t50), np.ceil(np.nan_to_num(t50)), edges).astype(np.int64)
     return _build(xm, lo_m, span, levels, direction, "sync", dt, t0, reset_idx, i50,
-                  edges, edges, width, float(period), edge_mid=t50)
+                  edges, edges, width, float(period))
