@@ -37,6 +37,7 @@ from trueslope.core.analysis import analyse  # noqa: E402
 from trueslope.core.capture import Capture  # noqa: E402
 from trueslope.core.circuit import CircuitContext  # noqa: E402
 from trueslope.core.diagnose import diagnose  # noqa: E402
+from trueslope.core.report.prose import strength_words  # noqa: E402
 from trueslope.core.settings import Settings  # noqa: E402
 
 
@@ -77,7 +78,7 @@ def acceptance(seeds: int) -> None:
                         right += 1
                     else:
                         wrong.append(f"{case} {bits} bit {noise} LSB: {d.signature} "
-                                     f"({d.strength_words})")
+                                     f"({strength_words(d.strength)})")
                     r_true = truth.get("equivalent_shunt_ohm")
                     if r_true and d.equivalent_shunt_ohm:
                         r_err.append(100 * (d.equivalent_shunt_ohm / r_true - 1))
