@@ -22,7 +22,7 @@ from .capture import CancelFn, Capture, ProgressFn, stop_if_cancelled
 from .diagnose import diagnose
 from .errors import AnalysisError, NoFullCycleError, NotASawtoothError, TrueslopeWarning
 from .fit import cycle_pass
-from .linearity import average_cycle, build_cycles, summarise, sweep_errors
+from .linearity import average_cycle, build_cycles, floor_groups, summarise, sweep_errors
 from .noise import adc_step, estimate_noise_rms
 from .results import Analysis, Figures, Segmentation
 from .segment import segment
@@ -191,7 +191,8 @@ def analyse(capture: Capture, settings: Settings | None = None,
 
     def kernel(s: Segmentation, lo: float, span: float):
         return cycle_pass(x, dt, t0, s, trim, window, bins, limits_s=limits, cancel=cancel,
-                          progress=lambda f: report(lo + span * f))
+                          progress=lambda f: report(lo + span * f),
+                          groups=floor_groups(s.ramp_start_s.size))
 
     cyc, sums = kernel(seg, 0.15, 0.6)
     noise_v, step = estimate_noise_rms(x), adc_step(v)

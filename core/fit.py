@@ -152,7 +152,7 @@ def cycle_pass(x: np.ndarray, dt: float, t0: float, seg: Segmentation, trim: flo
                window_s: tuple[float, float] | None, bins: int,
                progress: ProgressFn | None = None, cancel: CancelFn | None = None,
                limits_s: tuple[float | None, float | None] | None = None,
-               ) -> tuple[CycleArrays, PhaseSums]:
+               groups: int = 1) -> tuple[CycleArrays, PhaseSums]:
     """Fit every cycle and accumulate the phase-binned average, block by block.
 
     Parameters
@@ -167,6 +167,9 @@ def cycle_pass(x: np.ndarray, dt: float, t0: float, seg: Segmentation, trim: flo
         Phase bins of the averaged cycle.
     limits_s : (float or None, float or None), optional
         Earliest start and latest end of the window (seconds from the ramp start).
+    groups : int
+        Also sum the samples by phase bin in this many interleaved groups of cycles
+        (cycle ``c`` in group ``c % groups``), for the resolution floor.
 
     Returns
     -------
@@ -203,6 +206,14 @@ def cycle_pass(x: np.ndarray, dt: float, t0: float, seg: Segmentation, trim: flo
     out = {k: np.zeros(nc) for k in ("slope", "intercept", "se", "dof", "peak", "tpeak",
                                       "span", "tspan", "start", "end", "ssr", "nwin")}
     acc = {k: np.zeros(bins + 1) for k in ("n", "u", "y", "r", "rr")}
+    grouped = groups > 1
+    # interleaved (cycle c in group c % groups), so each group spans the whole record and
+    # keeps the regular advance of the sampling phase from cycle to cycle that the whole
+    # average has
+    member = np.arange(nc) % groups if grouped else None
+    g_n = np.zeros(groups * (bins + 1)) if grouped else None
+    g_y = np.zeros(groups * (bins + 1)) if grouped else None
+    g_u = np.zeros(groups * (bins + 1)) if grouped else None
     # blocks of about an eighth of the record (at most BLOCK_SAMPLES) keep the working
     # memory a small multiple of the record on short and long captures alike
     block = int(min(BLOCK_SAMPLES, max(50_000, x.size // 8)))
@@ -292,11 +303,20 @@ def cycle_pass(x: np.ndarray, dt: float, t0: float, seg: Segmentation, trim: flo
         acc["y"] += np.bincount(bi, xs, bins + 1)
         acc["r"] += np.bincount(bi, r, bins + 1)
         acc["rr"] += np.bincount(bi, r * r, bins + 1)
+        if grouped:
+            gi = bi + (member[c0:c1] * (bins + 1))[cid]
+            g_n += np.bincount(gi, minlength=groups * (bins + 1))
+            g_y += np.bincount(gi, xs, groups * (bins + 1))
+            g_u += np.bincount(gi, u, groups * (bins + 1))
         c0 = c1
         if progress is not None:
             progress(c1 / nc)
     sums = PhaseSums(count=acc["n"][:bins], phase=acc["u"][:bins], voltage_v=acc["y"][:bins],
-                     residual_v=acc["r"][:bins], residual_sq_v2=acc["rr"][:bins])
+                     residual_v=acc["r"][:bins], residual_sq_v2=acc["rr"][:bins],
+                     group_count=None if g_n is None else g_n.reshape(groups, bins + 1)[:, :bins],
+                     group_voltage_v=None if g_y is None else
+                     g_y.reshape(groups, bins + 1)[:, :bins],
+                     group_phase=None if g_u is None else g_u.reshape(groups, bins + 1)[:, :bins])
     cyc = CycleArrays(ramp_start_s=rs, ramp_time_s=T, slope_v_per_s=out["slope"],
                       intercept_v=out["intercept"], slope_stderr_v_per_s=out["se"],
                       dof=out["dof"], peak_deviation_v=out["peak"],

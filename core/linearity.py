@@ -36,6 +36,14 @@ from .edges import interpolate_crossing
 FLOOR_SIGMAS = 4.0
 #: Robust z-score beyond which a cycle is marked outlying.
 OUTLIER_Z = 5.0
+#: Interleaved groups of cycles whose averages give the resolution floor, and the fewest
+#: cycles in a group for its average to mean something (fewer cycles: the floor comes
+#: from the single average).
+FLOOR_GROUPS = 8
+MIN_CYCLES_PER_GROUP = 4
+#: Bins' cycle-to-cycle spread below this fraction of the quantisation noise q/sqrt(12):
+#: the converter is not dithered (the clock is locked to the ramp, the noise small).
+LOCKED_DITHER = 0.3
 #: Highest polynomial degree tried for the slope at the window's ends.
 MAX_DERIVATIVE_DEGREE = 6
 
@@ -109,10 +117,21 @@ def average_cycle(sums: PhaseSums, ramp_time_s: float, trim: float,
     chord_b = (curve[-1] - curve[0]) / (tw[-1] - tw[0])
     term_full = np.full(resid.shape, np.nan)
     term_full[inw] = curve - (curve[0] + chord_b * (tw - tw[0]))
-    # noise left on one point of the smoothed residual
+    # noise left on one point of the smoothed residual, from this one average: the bins'
+    # spread, or the residual's scatter about its smoothing if larger
     point_sd = max(point_sd_random,
                    float(np.std(rw - sm)) / math.sqrt(smoother_kept_fraction(W)))
     sm_sd = point_sd * smoother_gain(W)
+    groups = _group_spread(sums, keep, t, ramp_time_s, fit, ext, inw, W)
+    if groups is not None:
+        # the data's own spread of averages: independent groups of cycles, each averaged
+        # and smoothed alike, scatter about each other as much as noise moves the whole
+        # average (times sqrt(groups)). Where the cycles agree sample for sample (a clock
+        # locked to the ramp and too little noise to dither the converter) they agree
+        # across groups too and show nothing of what averaging cannot remove: the single
+        # average's estimate stands then.
+        locked = step_v is not None and float(np.median(sd)) < LOCKED_DITHER * step_v / math.sqrt(12)
+        sm_sd = max(groups, sm_sd) if locked else groups
     span = abs(fit.slope_v_per_s * (tb - ta))
     floor = 100.0 * FLOOR_SIGMAS * sm_sd / span if span > 0 else math.inf
     noise = NoiseFloor(noise_rms_v=noise_rms, adc_step_v=step_v,
@@ -122,6 +141,37 @@ def average_cycle(sums: PhaseSums, ramp_time_s: float, trim: float,
                        terminal_residual_v=term_full, ramp_time_s=ramp_time_s,
                        window_start_s=ta, window_end_s=tb, fit=fit, mirrored=mirrored)
     return av, noise
+
+
+def floor_groups(cycles: int) -> int:
+    """Groups of cycles for the resolution floor: :data:`FLOOR_GROUPS` when each holds
+    :data:`MIN_CYCLES_PER_GROUP` cycles or more, else 1 (no groups)."""
+    return FLOOR_GROUPS if cycles >= FLOOR_GROUPS * MIN_CYCLES_PER_GROUP else 1
+
+
+def _group_spread(sums: PhaseSums, keep: np.ndarray, t: np.ndarray, ramp_time_s: float,
+                  fit: LineFit, ext: slice, inw: np.ndarray, window: int) -> float | None:
+    """RMS over the window of the standard error of the smoothed averaged residual, from the
+    spread of the groups' own smoothed averages; None without groups."""
+    if sums.group_count is None or sums.group_count.shape[0] < 2:
+        return None
+    g = sums.group_count.shape[0]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        yg = sums.group_voltage_v[:, keep] / sums.group_count[:, keep]
+        # each group's bins sit at that group's own mean phase (a bin a sample wide holds
+        # different phases in different groups)
+        tg = sums.group_phase[:, keep] / sums.group_count[:, keep] * ramp_time_s
+    te = t[ext]
+    rg = yg[:, ext] - fit.at(tg[:, ext])
+    for row in rg:  # a bin a group missed: the line between its neighbours
+        bad = ~np.isfinite(row)
+        if np.all(bad):
+            return None
+        if np.any(bad):
+            row[bad] = np.interp(te[bad], te[~bad], row[~bad])
+    smg = signal.savgol_filter(rg, window, SMOOTH_ORDER, axis=1, mode="interp")[:, inw[ext]]
+    se = np.std(smg, axis=0, ddof=1) / math.sqrt(g)
+    return float(np.sqrt(np.mean(se * se)))
 
 
 def sweep_errors(av: AveragedCycle) -> SweepErrors:

@@ -269,9 +269,8 @@ class Figures(ToDict):
 
 @dataclass(frozen=True)
 class CycleArrays:
-    """Per-cycle figures of the kernel pass, one array entry per full cycle.
-
-    Measurement frame (mirrored for a falling ramp); turned into
+    """Per-cycle figures of the kernel pass, one array entry per full cycle, in the
+    measurement frame (mirrored for a falling ramp); turned into
     :class:`CycleFigures` in true polarity by ``linearity.build_cycles``.
 
     Ramp start (absolute) and duration; the least-squares line over the
@@ -301,10 +300,10 @@ class CycleArrays:
 @dataclass(frozen=True)
 class PhaseSums:
     """Sums over every ramp sample, binned by phase ``u = (t - ramp start) / ramp time``.
-
     One entry per phase bin, added to block by block: the count of samples,
     the sums of u, of the samples (measurement frame), of their residuals
-    about their own cycle's line, and of the squared residuals.
+    about their own cycle's line, and of the squared residuals; and the count, the
+    sum of u and of the samples per bin in each of a few interleaved groups of cycles.
     """
 
     count: np.ndarray
@@ -312,6 +311,9 @@ class PhaseSums:
     voltage_v: np.ndarray
     residual_v: np.ndarray
     residual_sq_v2: np.ndarray
+    group_count: np.ndarray | None = None
+    group_voltage_v: np.ndarray | None = None
+    group_phase: np.ndarray | None = None
 
 
 @dataclass(frozen=True)
