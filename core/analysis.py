@@ -200,7 +200,7 @@ def analyse(capture: Capture, settings: Settings | None = None,
     seg = dataclasses.replace(subset(seg, steady.keep), unsteady_start_s=steady.start_s,
                               unsteady_end_s=steady.end_s)
     cyc_all = subset_cycles(cyc, steady.keep)
-    cycles = build_cycles(cyc_all, seg, -1.0 if mirrored else 1.0)
+    cycles = build_cycles(cyc_all, seg, -1.0 if mirrored else 1.0, dt)
     keep = ~np.array([c.outlier for c in cycles], dtype=bool)
     n_out = int(np.count_nonzero(~keep))
     if not (n_out and np.count_nonzero(keep) >= 2):

@@ -272,14 +272,18 @@ def slope_ci(fit: LineFit, slopes: np.ndarray) -> tuple[float, float]:
     return b - half, b + half
 
 
-def build_cycles(cyc: CycleArrays, seg: Segmentation, sign: float) -> tuple[CycleFigures, ...]:
-    """Per-cycle records in true polarity, outlying ones marked."""
+def build_cycles(cyc: CycleArrays, seg: Segmentation, sign: float,
+                 dt: float = 0.0) -> tuple[CycleFigures, ...]:
+    """Per-cycle records in true polarity, outlying ones marked.
+
+    A ramp time is never called outlying for less than :data:`OUTLIER_Z` sample periods
+    ``dt``: edge timing is quantised to the sampling, however identical the cycles."""
     tq = stats.t.ppf(0.975, np.maximum(cyc.dof, 1))
     with np.errstate(divide="ignore", invalid="ignore"):  # a flat cycle has no span: NaN
         nl = 100.0 * cyc.peak_deviation_v / np.abs(cyc.fitted_span_v)
         tnl = 100.0 * cyc.terminal_peak_v / np.abs(cyc.terminal_span_v)
     # floors: 0.2 % of slope or ramp time, 0.05 percentage points (+10 %) of nonlinearity
-    out_flag = robust_outliers([(cyc.slope_v_per_s, 2e-3, 0.0), (cyc.ramp_time_s, 2e-3, 0.0),
+    out_flag = robust_outliers([(cyc.slope_v_per_s, 2e-3, 0.0), (cyc.ramp_time_s, 2e-3, dt),
                                 (nl, 0.1, 0.05)])
     b = sign * cyc.slope_v_per_s
     h = tq * cyc.slope_stderr_v_per_s

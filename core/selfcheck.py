@@ -41,10 +41,12 @@ def _item(name: str, expected: float | None, measured: float | None, unit: str,
     return CheckItem(name, expected, measured, unit, "outside", dev, low if dev < 0 else high)
 
 
-def _slope_causes(signature: str, probe_c_given: bool) -> tuple[tuple[str, ...],
-                                                                 tuple[str, ...]]:
+def _slope_causes(signature: str, probe_c_given: bool, curvature: str = "convex"
+                  ) -> tuple[tuple[str, ...], tuple[str, ...]]:
     """Codes of why the slope is low and why it is high, likeliest first."""
     low = ["capacitance-high", "current-low"]
+    if signature == "voltage-coefficient" and curvature == "concave":
+        low.insert(0, "voltage-coefficient-raises-capacitance")
     if not probe_c_given:
         low.insert(0, "unstated-capacitance")
     if signature == "shunt-loading":
@@ -52,7 +54,7 @@ def _slope_causes(signature: str, probe_c_given: bool) -> tuple[tuple[str, ...],
     if signature == "dielectric-absorption":
         low.append("absorption-adds-capacitance")
     high = ["capacitance-low", "current-high"]
-    if signature == "voltage-coefficient":
+    if signature == "voltage-coefficient" and curvature != "concave":
         high.insert(0, "voltage-coefficient-lowers-capacitance")
     return tuple(low), tuple(high)
 
@@ -106,7 +108,8 @@ def check_context(figures: Figures, diagnosis: Diagnosis,
     slope_meas = abs(figures.slope_v_per_s)
     sig = diagnosis.signature
     items: list[CheckItem] = []
-    low_c, high_c = _slope_causes(sig, context.probe_capacitance_f is not None)
+    low_c, high_c = _slope_causes(sig, context.probe_capacitance_f is not None,
+                                  diagnosis.curvature)
     pred = predict_ramp(I, C, v0, v1, R, window) if I is not None and C is not None else None
     if pred is not None:
         items.append(_item("slope", pred.slope_v_per_s, slope_meas, "V/s", tol, low_c, high_c))

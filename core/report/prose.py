@@ -279,6 +279,8 @@ CAUSE_WORDS = {
     "current-high": "the current is above the stated value (set resistor low, reference high)",
     "voltage-coefficient-lowers-capacitance": "the voltage coefficient found lowers the "
                                               "capacitance along the ramp",
+    "voltage-coefficient-raises-capacitance": "the voltage coefficient found raises the "
+                                              "capacitance along the ramp",
     "ramp-slower-than-ic": "the ramp takes longer than I/C gives:",
     "ramp-faster-than-ic": "the ramp is faster than I/C gives:",
     "probe-stops-ramp": "the stated probe resistance would stop the ramp below the upper "
