@@ -17,7 +17,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .artefacts import find_clipping, without_spikes
+from .artefacts import without_spikes
 from .capture import CancelFn, Capture, ProgressFn, stop_if_cancelled
 from .diagnose import diagnose
 from .errors import AnalysisError, NoFullCycleError, NotASawtoothError, TrueslopeWarning
@@ -179,8 +179,12 @@ def analyse(capture: Capture, settings: Settings | None = None,
     clean = without_spikes(np.asarray(v, dtype=float), seg.spike_samples)
     x = -clean if mirrored else clean
     clip = None
-    if seg.clipped_top_v is not None or seg.clipped_bottom_v is not None:
-        clip = clip_window(find_clipping(x).mask, seg, dt, t0)
+    clipped_at = [c for c in (seg.clipped_top_v, seg.clipped_bottom_v) if c is not None]
+    if clipped_at:
+        mask = np.zeros(clean.size, dtype=bool)
+        for level in clipped_at:
+            mask |= np.abs(clean - level) <= 1e-12 * max(1.0, abs(level))
+        clip = clip_window(mask, seg, dt, t0)
     limits = None if clip is None else (clip.start_limit_s, clip.end_limit_s)
     if settings.window_s is not None and settings.window_s[0] >= float(np.min(seg.ramp_time_s)):
         raise AnalysisError(

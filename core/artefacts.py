@@ -37,21 +37,28 @@ def find_spikes(x: np.ndarray, span_v: float, noise_v: float) -> np.ndarray:
     same sign and both exceed ``max(SPIKE_FRACTION * span, SPIKE_NOISE_SIGMAS *
     noise)``; a pair ``i, i+1`` when both stand that far, on the same side, from
     ``x[i-1]`` and ``x[i+2]``. A reset fails the test: after it the signal stays down.
+    Only the few places where consecutive samples jump by the threshold are examined.
     """
     n = x.size
     if n < 5:
         return np.zeros(0, dtype=np.int64)
     thr = max(SPIKE_FRACTION * span_v, SPIKE_NOISE_SIGMAS * noise_v)
-    c = x[1:-1]
-    d1 = c - x[:-2]
-    d2 = c - x[2:]
-    one = ((d1 > thr) & (d2 > thr)) | ((d1 < -thr) & (d2 < -thr))
-    a, b, left, right = x[1:-2], x[2:-1], x[:-3], x[3:]
-    up = (a - left > thr) & (b - left > thr) & (a - right > thr) & (b - right > thr)
-    down = (left - a > thr) & (left - b > thr) & (right - a > thr) & (right - b > thr)
-    two = np.flatnonzero(up | down) + 1
-    idx = np.concatenate((np.flatnonzero(one) + 1, two, two + 1))
-    return np.unique(idx)
+    d = np.diff(x)
+    jumps = np.flatnonzero(np.abs(d) > thr)  # d[k] = x[k+1] - x[k]: resets and spikes
+    out: list[np.ndarray] = []
+    if jumps.size:
+        i = jumps[(jumps >= 1) & (jumps <= n - 2)]  # sample i with both neighbours
+        # one sample: x[i] leaves x[i-1] by d[i-1] and x[i+1] leaves it by d[i], opposite
+        one = i[(np.abs(d[i - 1]) > thr) & (np.sign(d[i - 1]) == -np.sign(d[i]))]
+        out.append(one)
+        # two samples i, i+1 away from x[i-1] and x[i+2] on the same side
+        j = jumps[(jumps >= 0) & (jumps <= n - 4)] + 1  # first sample of the pair
+        a, b, left, right = x[j], x[j + 1], x[j - 1], x[j + 2]
+        up = (a - left > thr) & (b - left > thr) & (a - right > thr) & (b - right > thr)
+        down = (left - a > thr) & (left - b > thr) & (right - a > thr) & (right - b > thr)
+        pair = j[up | down]
+        out += [pair, pair + 1]
+    return np.unique(np.concatenate(out)) if out else np.zeros(0, dtype=np.int64)
 
 
 def without_spikes(x: np.ndarray, spikes: np.ndarray) -> np.ndarray:
@@ -87,42 +94,36 @@ class Clipping:
         return self.top_v is not None or self.bottom_v is not None
 
 
-def _runs(mask: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Starts and lengths of the runs of True in ``mask``."""
-    m = np.concatenate(([False], mask, [False]))
-    d = np.diff(m.astype(np.int8))
-    starts = np.flatnonzero(d == 1)
-    return starts, np.flatnonzero(d == -1) - starts
-
-
 def typical_dwell(x: np.ndarray) -> float:
-    """Median length of the runs of equal consecutive samples (1 for unquantised data)."""
+    """Mean length of the runs of equal consecutive samples (1 for unquantised data), from
+    the first two million samples."""
     sub = x[: 2_000_000]
-    eq = sub[1:] == sub[:-1]
-    if not np.any(eq):
-        return 1.0
-    _, lengths = _runs(eq)
-    # a run of k equal samples is k - 1 equalities; runs of one sample count as 1
-    singles = max(int(sub.size - np.count_nonzero(eq) - lengths.size), 0)
-    all_lengths = np.concatenate((lengths + 1, np.ones(singles)))
-    return float(np.median(all_lengths))
+    changes = int(np.count_nonzero(sub[1:] != sub[:-1]))
+    return sub.size / (changes + 1)
 
 
-def find_clipping(x: np.ndarray) -> Clipping:
+def find_clipping(x: np.ndarray, samples_per_code: float = 1.0) -> Clipping:
     """Clipping at the record's top or bottom: runs at the extreme value longer than
-    ``max(MIN_CLIP_RUN, CLIP_DWELL_FACTOR x typical dwell)``, at least
-    :data:`MIN_CLIP_RUNS` of them."""
+    ``max(MIN_CLIP_RUN, CLIP_DWELL_FACTOR x max(typical dwell, samples_per_code))``, at
+    least :data:`MIN_CLIP_RUNS` of them.
+
+    ``samples_per_code`` is how long the ramp takes to cross one ADC code (the step over
+    the slope per sample): a ramp that merely reaches the top code sits there that long."""
     mask = np.zeros(x.size, dtype=bool)
     if x.size < 16:
         return Clipping(None, None, mask)
-    longest = max(MIN_CLIP_RUN, CLIP_DWELL_FACTOR * typical_dwell(x))
+    longest = max(MIN_CLIP_RUN, CLIP_DWELL_FACTOR * max(typical_dwell(x), samples_per_code))
     levels: list[float | None] = []
-    for v in (float(np.max(x)), float(np.min(x))):
-        at = np.abs(x - v) <= 1e-12 * max(1.0, abs(v))
-        starts, lengths = _runs(at)
-        long_ = lengths > longest
-        if np.count_nonzero(long_) >= MIN_CLIP_RUNS:
-            mask |= at
+    for v, at_extreme in ((float(np.max(x)), lambda v, tol: x >= v - tol),
+                          (float(np.min(x)), lambda v, tol: x <= v + tol)):
+        idx = np.flatnonzero(at_extreme(v, 1e-12 * max(1.0, abs(v))))
+        if idx.size <= MIN_CLIP_RUNS * longest:  # too few samples there for long runs
+            levels.append(None)
+            continue
+        breaks = np.flatnonzero(np.diff(idx) != 1)
+        lengths = np.diff(np.concatenate(([-1], breaks, [idx.size - 1])))
+        if np.count_nonzero(lengths > longest) >= MIN_CLIP_RUNS:
+            mask[idx] = True
             levels.append(v)
         else:
             levels.append(None)

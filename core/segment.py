@@ -24,6 +24,8 @@ from .results import Segmentation, StateLevels
 #: Hysteresis thresholds as fractions of the span between the ramp levels.
 LOWER_THRESHOLD_FRACTION = 0.30
 UPPER_THRESHOLD_FRACTION = 0.70
+#: Full cycles covering this share of the record need no second try at the levels.
+WELL_COVERED = 0.75
 #: A sawtooth's slow edge must take at least this many times as long as its fast edge.
 MIN_EDGE_RATIO = 4.0
 #: Below this 90-10 % time (samples) sampling cuts the edge's corners (or misses the edge
@@ -164,21 +166,23 @@ def segment(v: np.ndarray, sample_interval_s: float, t0_s: float = 0.0,
     raw = np.asarray(v, dtype=float)
     noise = estimate_noise_rms(raw)
     lo, hi = ramp_extremes(raw)
-    _check_not_flat(raw, lo, hi, noise)
+    step = _check_not_flat(raw, lo, hi, noise)
     spikes = find_spikes(raw, hi - lo, noise)
     x = without_spikes(raw, spikes)
     clip = find_clipping(x)
-    found = dict(spike_samples=spikes, clipped_top_v=clip.top_v, clipped_bottom_v=clip.bottom_v)
     if sync is not None:
         lo, hi = ramp_extremes(x) if spikes.size else (lo, hi)
         seg = _segment_with_sync(x, np.asarray(sync, dtype=float), sample_interval_s, t0_s,
-                                 _levels(lo, hi))
-        return dataclasses.replace(seg, **found)
+                                 _levels(lo, hi), noise, step)
+        return dataclasses.replace(seg, spike_samples=spikes, clipped_top_v=clip.top_v,
+                                   clipped_bottom_v=clip.bottom_v)
     best: Segmentation | None = None
     first_error: Exception | None = None
     for cand in _candidate_levels(x):
+        if best is not None and _coverage(best, x.size, sample_interval_s) >= WELL_COVERED:
+            break
         try:
-            seg = _segment_signal(x, cand, sample_interval_s, t0_s, clip)
+            seg = _segment_signal(x, cand, sample_interval_s, t0_s, clip, noise, step)
         except (NoFullCycleError, NotASawtoothError) as exc:
             first_error = first_error or exc
             continue
@@ -187,15 +191,25 @@ def segment(v: np.ndarray, sample_interval_s: float, t0_s: float = 0.0,
     if best is None:
         raise first_error  # type: ignore[misc]
     # the steady cycles' own levels, where they find cycles the histogram's levels missed
-    steady = _steady_levels(x, best, sample_interval_s, t0_s)
+    steady = None
+    if _coverage(best, x.size, sample_interval_s) < WELL_COVERED:
+        steady = _steady_levels(x, best, sample_interval_s, t0_s)
     if steady is not None:
         try:
-            again = _segment_signal(x, steady, sample_interval_s, t0_s, clip)
+            again = _segment_signal(x, steady, sample_interval_s, t0_s, clip, noise, step)
             if again.full_cycles > best.full_cycles:
                 best = again
         except (NoFullCycleError, NotASawtoothError):
             pass
-    return dataclasses.replace(best, **found)
+    # a ramp sits on its top and bottom codes for as long as it takes to cross one code:
+    # only a run well beyond that is clipping
+    ramp_samples = float(np.median(best.ramp_time_s)) / sample_interval_s
+    per_sample = abs(best.levels.high_v - best.levels.low_v) / max(ramp_samples, 1.0)
+    final = find_clipping(x, (step / per_sample) if step and per_sample > 0 else 1.0)
+    if (final.top_v, final.bottom_v) != (clip.top_v, clip.bottom_v):
+        best = _segment_signal(x, best.levels, sample_interval_s, t0_s, final, noise, step)
+    return dataclasses.replace(best, spike_samples=spikes, clipped_top_v=final.top_v,
+                               clipped_bottom_v=final.bottom_v)
 
 
 def _levels(lo: float, hi: float) -> StateLevels:
@@ -205,15 +219,23 @@ def _levels(lo: float, hi: float) -> StateLevels:
                        upper_threshold_v=lo + UPPER_THRESHOLD_FRACTION * span)
 
 
-def _check_not_flat(x: np.ndarray, lo: float, hi: float, noise: float) -> None:
-    """Refuse a record with no ramp in it: its span within a few noise sigmas or ADC steps."""
-    step = adc_step(x) or 0.0
+def _coverage(seg: Segmentation, n: int, dt: float) -> float:
+    """Share of the record that the full cycles cover."""
+    return float(np.sum(seg.period_s)) / max(n * dt, 1e-300)
+
+
+def _check_not_flat(x: np.ndarray, lo: float, hi: float, noise: float) -> float | None:
+    """Refuse a record with no ramp in it: its span within a few noise sigmas or ADC steps.
+    Returns the ADC step found (None when the samples are not on a grid)."""
+    found = adc_step(x)
+    step = found or 0.0
     span = hi - lo
     if not span > max(8.0 * noise, 6.0 * step, 1e-12):
         raise NotASawtoothError(
             f"no ramp: the signal is flat within the noise (it spans {span:.3g} V against "
             f"{noise:.3g} V RMS noise{f' and {step:.3g} V steps' if step else ''}); is this "
             f"the right channel?")
+    return found
 
 
 def _candidate_levels(x: np.ndarray) -> list[StateLevels]:
@@ -247,7 +269,8 @@ def _steady_levels(x: np.ndarray, seg: Segmentation, dt: float, t0: float
 
 
 def _segment_signal(x: np.ndarray, levels: StateLevels, sample_interval_s: float,
-                    t0_s: float, clip: Clipping) -> Segmentation:
+                    t0_s: float, clip: Clipping, noise: float, step: float | None
+                    ) -> Segmentation:
     """Segment from the ramp's own fast edges with the thresholds of ``levels``."""
     n = x.size
     lo, hi = levels.low_v, levels.high_v
@@ -310,13 +333,14 @@ def _segment_signal(x: np.ndarray, levels: StateLevels, sample_interval_s: float
         top, bottom = bottom, top
     return _build(x, lo_m, span, levels, direction, "signal", sample_interval_s, t0_s,
                   reset_idx, np.ceil(t50).astype(np.int64), down_start, down_end, width,
-                  float(np.median(np.diff(reset_idx))), clipped=(bottom, top))
+                  float(np.median(np.diff(reset_idx))), noise, step, clipped=(bottom, top))
 
 
 def _build(xm: np.ndarray, lo_m: float, span: float, levels: StateLevels, direction: str,
            source: str, dt: float, t0: float, reset_idx: np.ndarray, i50: np.ndarray,
            before: np.ndarray, after: np.ndarray, width: int,
-           period_samples: float, clipped: tuple[bool, bool] = (False, False)) -> Segmentation:
+           period_samples: float, noise: float, step: float | None,
+           clipped: tuple[bool, bool] = (False, False)) -> Segmentation:
     """Retrace extent and ramp boundaries of every cycle, shared by both segmenters.
 
     Parameters
@@ -357,7 +381,7 @@ def _build(xm: np.ndarray, lo_m: float, span: float, levels: StateLevels, direct
                             "min").astype(float)
     peak = np.where(ok, t90 - ext, peak)
     trough = np.where(ok, t10 + ext, trough)
-    tol = 4.0 * estimate_noise_rms(xm) + (adc_step(xm) or 0.0) + 1e-3 * span
+    tol = 4.0 * noise + (step or 0.0) + 1e-3 * span
     fast = ok & (fall < FAST_EDGE_SAMPLES)
     if np.any(ok & ~fast):
         peak, trough = slow_corners(xm, peak, trough, t90, t10, lo_m, span, ok & ~fast,
@@ -383,7 +407,7 @@ def _build(xm: np.ndarray, lo_m: float, span: float, levels: StateLevels, direct
 
 
 def _segment_with_sync(x: np.ndarray, s: np.ndarray, dt: float, t0: float,
-                       levels: StateLevels) -> Segmentation:
+                       levels: StateLevels, noise: float, step: float | None) -> Segmentation:
     """Segment from the edges of a logic-level sync channel."""
     n = x.size
     if s.size != n:
@@ -426,4 +450,4 @@ def _segment_with_sync(x: np.ndarray, s: np.ndarray, dt: float, t0: float,
     t50 = local_crossing(xm, edges - width, edges + width, lo_m + 0.5 * span, "last")
     i50 = np.where(np.isfinite(t50), np.ceil(np.nan_to_num(t50)), edges).astype(np.int64)
     return _build(xm, lo_m, span, levels, direction, "sync", dt, t0, reset_idx, i50,
-                  edges, edges, width, float(period))
+                  edges, edges, width, float(period), noise, step)
