@@ -13,14 +13,17 @@ from __future__ import annotations
 
 import dataclasses
 import math
+import warnings
 from pathlib import Path
 
 import numpy as np
 
 from .artefacts import without_spikes
-from .capture import CancelFn, Capture, ProgressFn, stop_if_cancelled
+from .capture import (MAX_ABS_VOLTS, SAMPLE_INTERVAL_RANGE_S, CancelFn, Capture, ProgressFn,
+                      stop_if_cancelled)
 from .diagnose import diagnose
-from .errors import AnalysisError, NoFullCycleError, NotASawtoothError, TrueslopeWarning
+from .errors import (AnalysisError, Cancelled, NoFullCycleError, NotASawtoothError,
+                     TrueslopeError, TrueslopeWarning)
 from .fit import cycle_pass
 from .linearity import average_cycle, build_cycles, floor_groups, summarise, sweep_errors
 from .noise import adc_step, estimate_noise_rms
@@ -42,6 +45,7 @@ def _pick_channel(capture: Capture, settings: Settings, cancel: CancelFn | None
     """The requested channel, or the first non-time column that holds a sawtooth."""
     if settings.channel is not None:
         name, v = capture.channel(settings.channel)
+        _check_ranges(capture, v)
         return name, v, None
     skip = set()
     if settings.sync_channel is not None:
@@ -52,6 +56,7 @@ def _pick_channel(capture: Capture, settings: Settings, cancel: CancelFn | None
             continue
         stop_if_cancelled(cancel)
         v = capture.channels[name]
+        _check_ranges(capture, v)
         try:
             seg = segment(v, capture.sample_interval_s, capture.t0_s)
         except (NotASawtoothError, NoFullCycleError) as exc:
@@ -142,8 +147,86 @@ def _warnings(capture: Capture, seg: Segmentation, figures: Figures, n_out: int,
     return tuple(out)
 
 
+def _check_ranges(capture: Capture, v: np.ndarray) -> None:
+    """Refuse samples and intervals outside any bench's range (see ``capture``)."""
+    lo_dt, hi_dt = SAMPLE_INTERVAL_RANGE_S
+    dt = capture.sample_interval_s
+    if not (math.isfinite(dt) and lo_dt <= dt <= hi_dt):
+        raise AnalysisError(f"the sample interval, {dt:.4g} s, is outside any bench's range "
+                            f"({lo_dt:g} s to {hi_dt:g} s): check the time column or the "
+                            f"interval given")
+    if not np.all(np.isfinite(v)):
+        raise AnalysisError("the channel holds samples that are not finite numbers")
+    peak = float(np.max(np.abs(v))) if v.size else 0.0
+    if peak > MAX_ABS_VOLTS:
+        raise AnalysisError(f"a sample of {peak:.4g} V is outside any bench's range (within "
+                            f"{MAX_ABS_VOLTS:g} V of zero): check the column's unit or the "
+                            f"probe's scaling")
+
+
+#: Figures that must be finite numbers for a result to be reported at all.
+_HEADLINE = ("frequency_hz", "period_s", "ramp_time_s", "slope_v_per_s", "start_v", "end_v",
+             "amplitude_v", "nonlinearity_pct", "nonlinearity_floor_pct")
+
+
+def _named(exc: TrueslopeError, source: str) -> TrueslopeError:
+    """The same refusal, its message starting with the file's name."""
+    name = Path(source).name
+    text = str(exc)
+    if not name or text.startswith(name):
+        return exc
+    try:
+        return type(exc)(f"{name}: {text}")
+    except TypeError:  # an error class with other arguments: leave it as it was
+        return exc
+
+
 def analyse(capture: Capture, settings: Settings | None = None,
             progress: ProgressFn | None = None, cancel: CancelFn | None = None) -> Analysis:
+    """Measure the linearity of every ramp cycle of a capture.
+
+    Parameters
+    ----------
+    capture : Capture
+        The record (from :func:`trueslope.core.io.load_capture` or built in memory).
+    settings : Settings, optional
+        Fit window, channel choice, circuit context; defaults documented there.
+    progress : callable(float), optional
+        Called with the fraction done, 0 to 1.
+    cancel : callable() -> bool, optional
+        Polled between blocks; returning True raises :class:`Cancelled`.
+
+    Returns
+    -------
+    Analysis
+        Its headline figures are always finite numbers.
+
+    Raises
+    ------
+    NotASawtoothError, NoFullCycleError, AnalysisError, ChannelNotFoundError, Cancelled
+        Every message starts with the capture's file name.
+    """
+    try:
+        with np.errstate(all="ignore"), warnings.catch_warnings():
+            warnings.simplefilter("ignore", RuntimeWarning)
+            result = _analyse(capture, settings or Settings(), progress, cancel)
+    except Cancelled:
+        raise
+    except TrueslopeError as exc:
+        raise _named(exc, capture.source) from None
+    except (ArithmeticError, ValueError, np.linalg.LinAlgError) as exc:
+        # a numeric breakdown on a record the checks let through: a refusal, not a crash
+        raise AnalysisError(f"{Path(capture.source).name}: the record cannot be measured "
+                            f"(the computation broke down: {type(exc).__name__})") from None
+    bad = [k for k in _HEADLINE if not math.isfinite(getattr(result.figures, k))]
+    if bad:
+        raise AnalysisError(f"{Path(capture.source).name}: the record cannot be measured: "
+                            f"{', '.join(bad)} came out as no finite number")
+    return result
+
+
+def _analyse(capture: Capture, settings: Settings, progress: ProgressFn | None,
+             cancel: CancelFn | None) -> Analysis:
     """Measure the linearity of every ramp cycle of a capture.
 
     Parameters
@@ -165,7 +248,6 @@ def analyse(capture: Capture, settings: Settings | None = None,
     ------
     NotASawtoothError, NoFullCycleError, AnalysisError, ChannelNotFoundError, Cancelled
     """
-    settings = settings or Settings()
     report = progress or (lambda f: None)
     report(0.0)
     name, v, seg = _pick_channel(capture, settings, cancel)

@@ -13,6 +13,13 @@ import numpy as np
 
 from .errors import Cancelled, ChannelNotFoundError, TrueslopeWarning
 
+#: What any bench capture can hold: samples within this many volts of zero (a high-voltage
+#: probe reaches tens of kilovolts), and a sample interval between a femtosecond and a few
+#: hours. Outside them a number is not a measurement (a unit mistake, a corrupt file), and
+#: the computations that follow would overflow.
+MAX_ABS_VOLTS = 1e5
+SAMPLE_INTERVAL_RANGE_S = (1e-15, 1e4)
+
 #: Signature of progress callbacks: called with a fraction in [0, 1].
 ProgressFn = Callable[[float], None]
 #: Signature of cancel flags: return True to stop the work.

@@ -27,7 +27,7 @@ import numpy as np
 
 from .errors import SettingsError
 from .jsonable import ToDict
-from .units import parse_si
+from .units import format_si, parse_si
 
 #: Default tolerance of the stated part values, fraction.
 DEFAULT_TOLERANCE = 0.10
@@ -40,6 +40,18 @@ MATCH_FACTOR = 1.3
 #: a scope input alone (common practice; SOURCES.md [loading]).
 PROBE_10X_OHM = 10e6
 SCOPE_INPUT_OHM = 1e6
+#: What a bench circuit can hold: (lowest, highest, unit) of each stated value. Outside
+#: them a number is a typing slip (a missing prefix, an exponent too many), not a part.
+BENCH_RANGES = {
+    "capacitance_f": (1e-15, 10.0, "F"),
+    "current_a": (1e-15, 100.0, "A"),
+    "set_resistor_ohm": (1e-3, 1e12, "\u03a9"),
+    "probe_resistance_ohm": (1.0, 1e15, "\u03a9"),
+    "probe_capacitance_f": (0.0, 1e-6, "F"),
+    "reference_v": (1e-6, 1e5, "V"),
+}
+#: Comparator thresholds lie within this many volts of zero.
+MAX_THRESHOLD_V = 1e5
 #: Points of the predicted curve used for its least-squares nonlinearity.
 PREDICTION_POINTS = 4001
 
@@ -89,24 +101,36 @@ class CircuitContext(ToDict):
             v = getattr(self, name)
             if v is not None and not (math.isfinite(v) and v > 0):
                 raise SettingsError(f"must be a positive number, got {v!r}", FIELD_OF[name])
+            lo, hi, unit = BENCH_RANGES[name]
+            if v is not None and not lo <= v <= hi:
+                raise SettingsError(f"{format_si(v, unit, 4)} is outside any bench's range "
+                                    f"({format_si(lo, unit, 3)} to {format_si(hi, unit, 3)})",
+                                    FIELD_OF[name])
         c = self.probe_capacitance_f
-        if c is not None and not (math.isfinite(c) and c >= 0):
-            raise SettingsError(f"the probe's capacitance must be zero or positive, got {c!r}",
-                                "probe")
+        if c is not None and not (math.isfinite(c) and 0 <= c <= BENCH_RANGES["probe_capacitance_f"][1]):
+            raise SettingsError(f"the probe's capacitance must be between 0 and "
+                                f"{format_si(BENCH_RANGES['probe_capacitance_f'][1], 'F', 3)}, "
+                                f"got {c!r} F", "probe")
         r = self.reference_v
         if r is not None and not (math.isfinite(r) and r != 0):
             raise SettingsError(f"must be a non-zero number, got {r!r}", "reference")
+        if r is not None and not (BENCH_RANGES["reference_v"][0] <= abs(r)
+                                  <= BENCH_RANGES["reference_v"][1]):
+            raise SettingsError(f"{format_si(r, 'V', 4)} is outside any bench's range "
+                                f"(1 µV to 100 kV)", "reference")
         t = self.tolerance_frac
         if not (math.isfinite(t) and 0 < t < 1):
             raise SettingsError(f"must be between 0 and 100 %, got {100 * t:g} %", "tolerance")
         lo, hi = self.low_threshold_v, self.high_threshold_v
         for v in (lo, hi):
-            if v is not None and not math.isfinite(v):
-                raise SettingsError(f"must be finite numbers, got {v!r}", "thresholds")
+            if v is not None and not (math.isfinite(v) and abs(v) <= MAX_THRESHOLD_V):
+                raise SettingsError(f"must be numbers within {MAX_THRESHOLD_V:g} V of zero, "
+                                    f"got {v!r}", "thresholds")
         if (lo is None) != (hi is None):
             raise SettingsError("give both comparator thresholds, or neither", "thresholds")
-        if lo is not None and lo == hi:
-            raise SettingsError(f"the two thresholds must differ, both are {lo} V", "thresholds")
+        if lo is not None and hi is not None and not lo < hi:
+            raise SettingsError(f"give the lower level first (LOW,HIGH): {lo:g} V is not below "
+                                f"{hi:g} V", "thresholds")
         if self.set_resistor_ohm is not None and self.reference_v is None \
                 and self.current_a is None:
             raise SettingsError("the reference voltage is needed too: the current is the "
@@ -227,8 +251,10 @@ def parse_context(capacitance: object = None, current: object = None,
         low_threshold_v=lo, high_threshold_v=hi)
     tol = _value("tolerance", tolerance, "%")
     if all(v is None for v in values.values()):
-        if tol is not None and not (0 < tol < 1):
-            raise SettingsError(f"must be between 0 and 100 %, got {100 * tol:g} %", "tolerance")
+        if tol is not None:
+            raise SettingsError("a tolerance alone checks nothing: give the capacitance and the "
+                                "current (or the set resistor and the reference) as well",
+                                "tolerance")
         return None
     return CircuitContext(tolerance_frac=DEFAULT_TOLERANCE if tol is None else tol, **values)
 
@@ -298,11 +324,17 @@ def predict_ramp(current_a: float, capacitance_f: float, v0: float, v1: float,
     # V = v_inf - (v_inf - v0) exp(-t/tau), written with expm1 so a tau of hours
     # against a ramp of microseconds keeps its digits
     v = v0 - (v_inf - v0) * np.expm1(-t / tau)
-    p = np.polyfit(t - t[0], v, 1)
-    resid = v - np.polyval(p, t - t[0])
-    span = p[0] * (t[-1] - t[0])
+    # fitted on the window mapped onto [0, 1], so any time scale is well conditioned
+    width = float(t[-1] - t[0])
+    if not width > 0:
+        return Prediction(ramp_time_s=T, slope_v_per_s=s0, nonlinearity_pct=math.nan,
+                          initial_slope_v_per_s=s0)
+    u = (t - t[0]) / width
+    p = np.polyfit(u, v - v0, 1)
+    resid = (v - v0) - np.polyval(p, u)
+    span = float(p[0])
     nl = 100.0 * float(np.max(np.abs(resid))) / span if span > 0 else math.nan
-    return Prediction(ramp_time_s=T, slope_v_per_s=float(p[0]), nonlinearity_pct=nl,
+    return Prediction(ramp_time_s=T, slope_v_per_s=span / width, nonlinearity_pct=nl,
                       initial_slope_v_per_s=s0)
 
 
