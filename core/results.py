@@ -428,13 +428,13 @@ class Diagnosis(ToDict):
 @dataclass(frozen=True)
 class CheckItem(ToDict):
     """One figure the stated parts predict, beside the one measured.
-
     ``name`` is one of slope, ramp time, period, frequency, equivalent shunt,
     nonlinearity, implied current, implied capacitance; ``expected`` and
     ``measured`` are in ``unit`` (SI; None where unknown); ``verdict`` is
     "within tolerance", "outside" or "not checked"; ``deviation_pct`` is
     ``100 (measured - expected) / expected``; ``causes`` are the codes of the
-    likely causes when outside (what it is, when not checked), worded by ``report``.
+    likely causes when outside (what it is, when not checked), worded by ``report``;
+    ``basis`` says what ``expected`` is: "predicted" by the parts, or the "stated probe".
     """
 
     name: str
@@ -444,12 +444,12 @@ class CheckItem(ToDict):
     verdict: str
     deviation_pct: float | None
     causes: tuple[str, ...] = ()
+    basis: str = "predicted"
 
 
 @dataclass(frozen=True)
 class ContextCheck(ToDict):
     """The self-check: the stated circuit against the capture.
-
     Attributes
     ----------
     items : tuple of CheckItem

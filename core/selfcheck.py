@@ -11,11 +11,15 @@ the same fraction of the predicted ramp as the measured fit window.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 
 from .circuit import CircuitContext, predict_ramp, probe_match
 from .results import CheckItem, ContextCheck, Diagnosis, Figures
 
+#: Verdicts that count as agreeing with the stated parts, and those that count against.
+AGREES = frozenset({"within tolerance", "explained by the parts", "below resolution"})
+DISAGREES = frozenset({"outside", "more than the parts explain", "less than the parts predict"})
 #: Measured figures that come from fitting a shape (the shunt, the nonlinearity)
 #: are never judged tighter than this, whatever the parts' tolerance.
 SHAPE_TOLERANCE_MIN = 0.25
@@ -65,6 +69,39 @@ def _nl_cause(signature: str) -> str:
             "unclassified": "nl-unexplained"}.get(signature, "nl-other-cause")
 
 
+def _signed(item: CheckItem, sign: float) -> CheckItem:
+    """The item with its values in true polarity (the deviation is sign-free)."""
+    if sign > 0:
+        return item
+    return dataclasses.replace(
+        item, expected=None if item.expected is None else sign * item.expected,
+        measured=None if item.measured is None else sign * item.measured)
+
+
+def _nonlinearity_item(expected: float, measured: float, floor: float, shape_tol: float,
+                       signature: str) -> CheckItem:
+    """The measured bow against the one the stated parts predict, judged against the floor.
+
+    Verdicts: ``"below resolution"`` (neither the measured nor the predicted bow is above
+    what the capture resolves), ``"explained by the parts"`` (they agree within the shape
+    tolerance or the floor), ``"more than the parts explain"`` (with the cause) and
+    ``"less than the parts predict"`` (the stated probe was not on the node, or is
+    larger than stated).
+    """
+    dev = _dev(expected, measured)
+    f = floor if math.isfinite(floor) else 0.0
+    if measured <= f and (not math.isfinite(expected) or expected <= f):
+        return CheckItem("nonlinearity", expected, measured, "%", "below resolution", dev)
+    margin = max(shape_tol * max(expected, 0.0), f)
+    if math.isfinite(expected) and abs(measured - expected) <= margin:
+        return CheckItem("nonlinearity", expected, measured, "%", "explained by the parts", dev)
+    if not math.isfinite(expected) or measured > expected:
+        return CheckItem("nonlinearity", expected, measured, "%", "more than the parts explain",
+                         dev, (_nl_cause(signature),))
+    return CheckItem("nonlinearity", expected, measured, "%", "less than the parts predict",
+                     dev, ("probe-not-on-node",))
+
+
 def check_context(figures: Figures, diagnosis: Diagnosis,
                   context: CircuitContext) -> ContextCheck:
     """Put what the stated parts predict beside what was measured.
@@ -80,7 +117,8 @@ def check_context(figures: Figures, diagnosis: Diagnosis,
     Returns
     -------
     ContextCheck
-        Items: slope (``I / C_eff``, or the least-squares slope of the
+        Verdicts: "within tolerance", "outside", "not checked", and for the
+        nonlinearity those of :func:`_nonlinearity_item`. Items: slope (``I / C_eff``, or the least-squares slope of the
         loaded exponential when a probe resistance is given), ramp time
         between the thresholds, period (predicted ramp time + measured
         retrace), frequency, equivalent shunt (against the probe's
@@ -112,7 +150,10 @@ def check_context(figures: Figures, diagnosis: Diagnosis,
                                   diagnosis.curvature)
     pred = predict_ramp(I, C, v0, v1, R, window) if I is not None and C is not None else None
     if pred is not None:
-        items.append(_item("slope", pred.slope_v_per_s, slope_meas, "V/s", tol, low_c, high_c))
+        # slopes keep their true sign (a falling ramp's are negative); the verdict compares
+        # magnitudes, which is what the parts set
+        items.append(_signed(_item("slope", pred.slope_v_per_s, slope_meas, "V/s", tol,
+                                   low_c, high_c), sign))
         t_high = (("ramp-slower-than-ic",) + low_c if not math.isinf(pred.ramp_time_s)
                   else ("probe-stops-ramp",))
         items.append(_item("ramp time", pred.ramp_time_s, T_meas, "s", tol,
@@ -137,10 +178,11 @@ def check_context(figures: Figures, diagnosis: Diagnosis,
     if R is not None or shunt is not None:
         if R is not None and shunt is None:
             items.append(CheckItem("equivalent shunt", R, None, "Ω", "not checked", None,
-                                   ("no-shunt-found",)))
+                                   ("no-shunt-found",), basis="stated probe"))
         else:
-            items.append(_item("equivalent shunt", R, shunt, "Ω", shape_tol,
-                               ("another-resistance",), ("probe-higher-or-other-cause",)))
+            items.append(dataclasses.replace(
+                _item("equivalent shunt", R, shunt, "Ω", shape_tol, ("another-resistance",),
+                      ("probe-higher-or-other-cause",)), basis="stated probe"))
 
     # nonlinearity the stated probe alone would cause, against the one measured
     nl_meas = figures.nonlinearity_pct
@@ -156,15 +198,7 @@ def check_context(figures: Figures, diagnosis: Diagnosis,
     expected_nl = probe_nl if probe_nl is not None else (0.0 if (I is not None and C is not None)
                                                          else None)
     if expected_nl is not None and math.isfinite(nl_meas):
-        margin = max(shape_tol * max(expected_nl, 0.0), floor if math.isfinite(floor) else 0.0)
-        dev = _dev(expected_nl, nl_meas)
-        if math.isfinite(expected_nl) and abs(nl_meas - expected_nl) <= margin:
-            items.append(CheckItem("nonlinearity", expected_nl, nl_meas, "%",
-                                   "within tolerance", dev))
-        else:
-            cause = _nl_cause(sig) if nl_meas > expected_nl else "probe-not-on-node"
-            items.append(CheckItem("nonlinearity", expected_nl, nl_meas, "%", "outside", dev,
-                                   (cause,)))
+        items.append(_nonlinearity_item(expected_nl, nl_meas, floor, shape_tol, sig))
     explains = bool(bow and probe_nl is not None and math.isfinite(probe_nl)
                     and abs(nl_meas - probe_nl) <= max(shape_tol * nl_meas, floor))
     return ContextCheck(items=tuple(items), tolerance_frac=tol, equivalent_shunt_ohm=shunt,

@@ -10,6 +10,7 @@ from __future__ import annotations
 import math
 
 from ..results import CheckItem, ContextCheck, Diagnosis
+from ..selfcheck import AGREES, DISAGREES
 from .numbers import pct, si
 
 #: Strength boundaries (multiples of the resolution floor): below 1 the shape is
@@ -324,20 +325,22 @@ def likely_cause(item: CheckItem, diagnosis: Diagnosis | None) -> str:
 def selfcheck_summary(c: ContextCheck, diagnosis: Diagnosis | None) -> str:
     """Two or three sentences on the self-check."""
     items = c.items
-    checked = [i for i in items if i.verdict != "not checked"]
-    out = [i for i in checked if i.verdict == "outside"]
+    checked = [i for i in items if i.verdict in AGREES or i.verdict in DISAGREES]
+    out = [i for i in checked if i.verdict in DISAGREES]
     parts = []
     if checked:
         if out:
             def how(i: CheckItem) -> str:
                 if i.name == "nonlinearity":
-                    return f"{i.name} ({pct(i.measured)} measured against {pct(i.expected)})"
+                    return (f"{i.name} ({pct(i.measured)} measured, {pct(i.expected)} from the "
+                            f"parts: {i.verdict})")
                 if i.deviation_pct is None:
                     return i.name
                 return f"{i.name} ({pct(i.deviation_pct, signed=True)})"
             lead = "Likely cause of the first" if len(out) > 1 else "Likely cause"
             parts.append(f"{len(checked) - len(out)} of {len(checked)} figures agree with the "
-                         f"stated parts within {pct(100 * c.tolerance_frac)}; outside: "
+                         f"stated parts (within {pct(100 * c.tolerance_frac)}, the shapes "
+                         f"within their own tolerance); against: "
                          f"{', '.join(how(i) for i in out)}. {lead}: "
                          f"{likely_cause(out[0], diagnosis)}.")
         else:
