@@ -79,6 +79,10 @@ class NonFiniteDataError(CaptureError):
     """A run of NaN or infinite samples in the data."""
 
 
+class OutOfRangeError(CaptureError):
+    """A sample, a time or the sample interval lies beyond anything a bench capture holds."""
+
+
 class TooFewSamplesError(CaptureError):
     """Too few samples to measure anything."""
 
@@ -150,6 +154,8 @@ WARNING_CODES: dict[str, str] = {
     "integer-samples": "the samples are integers, taken as volts unscaled",
     "wav-uncalibrated": "WAV samples are in full-scale units, not volts",
     "wav-reader": "the WAV reader reported something unusual about the file",
+    "truncated-data": "the file ends before the data its header declares; the whole samples "
+                      "present were read",
     # measuring
     "below-resolution": "the nonlinearity is below what the capture can resolve",
     "few-cycles": "fewer than three full cycles: figures rest on little data",

@@ -27,6 +27,8 @@ from typing import Callable
 from ..capture import Capture
 from ..errors import (Cancelled, CaptureError, CaptureFormatError, CaptureReadError,
                       SettingsError, TrueslopeError)
+from ._assemble import MAX_INTERVAL_S, MIN_INTERVAL_S
+from ._files import open_regular
 from .delimited import read_delimited
 from .npy import read_npy
 from .wav import read_wav
@@ -122,13 +124,16 @@ def load_capture(path: str | os.PathLike, *, sample_interval_s: float | None = N
     Raises
     ------
     CaptureReadError
-        The file cannot be opened (missing, a folder, no permission).
+        The file cannot be opened (missing, a folder, no permission), or is not a
+        regular file (a FIFO, a device, a system file under /proc): only regular
+        files are opened, so nothing blocks or reads forever.
     EmptyCaptureError, CaptureFormatError, RaggedRowsError, UnknownUnitError,
     TimeAxisError, NonFiniteDataError, TooFewSamplesError, NoSampleIntervalError
         The content cannot be read as a waveform; the message names the file,
         the line (for text) and what was expected.
     SettingsError
-        ``sample_interval_s`` is not a positive finite number.
+        ``sample_interval_s`` is not a number of seconds between
+        ``MIN_INTERVAL_S`` and ``MAX_INTERVAL_S``.
     Cancelled
         ``cancel()`` returned True.
 
@@ -151,24 +156,26 @@ def load_capture(path: str | os.PathLike, *, sample_interval_s: float | None = N
             dt = math.nan
         if not (math.isfinite(dt) and dt > 0):
             raise SettingsError(
-                f"the sample interval must be a positive number of seconds, got {sample_interval_s!r}")
+                f"the sample interval must be a positive number of seconds, got {sample_interval_s!r}",
+                field="sample_interval")
+        if not MIN_INTERVAL_S <= dt <= MAX_INTERVAL_S:
+            raise SettingsError(
+                f"the sample interval {dt:g} s is outside what a bench instrument samples at "
+                f"({MIN_INTERVAL_S:g} s to {MAX_INTERVAL_S:g} s)", field="sample_interval")
         sample_interval_s = dt
     report = _Progress(progress)
     check = _canceller(cancel, p)
     try:
         report(0.0)
         check()
-        try:
-            with open(p, "rb") as f:
-                magic = f.read(16)
-        except FileNotFoundError:
-            raise CaptureReadError("no such file", p) from None
-        except IsADirectoryError:
-            raise CaptureReadError("this is a folder, not a capture file", p) from None
-        except PermissionError:
-            raise CaptureReadError("permission denied: the file cannot be read", p) from None
-        except OSError as exc:
-            raise CaptureReadError(f"cannot be read: {exc.strerror or exc}", p) from None
+        with open_regular(p) as f:
+            size = os.fstat(f.fileno()).st_size
+            magic = f.read(16)
+        if size == 0 and magic:
+            raise CaptureReadError(
+                "is not a regular file on disk: it reports a size of 0 bytes yet has content "
+                "(a system file, such as those under /proc); expected a capture file saved "
+                "on disk", p)
         suffix = Path(p).suffix.lower()
         reader = None
         for name, test, read, own_suffix in READERS:
@@ -192,7 +199,11 @@ def load_capture(path: str | os.PathLike, *, sample_interval_s: float | None = N
     except MemoryError:
         raise CaptureError("not enough memory to hold the samples of this file", p) from None
     except OSError as exc:
-        raise CaptureReadError(f"reading failed: {exc.strerror or exc}", p) from None
+        raise CaptureReadError(
+            f"reading failed: {exc.strerror or 'the system refused'}", p) from None
     except Exception as exc:  # noqa: BLE001 - no library exception may leave core
+        # Python's own words (a ZeroDivisionError, a tokenizer error) mean nothing at the
+        # bench; the original stays chained for a developer.
         raise CaptureFormatError(
-            f"could not be read as a capture ({type(exc).__name__}: {exc})", p) from exc
+            "could not be read as a capture: the content is damaged or is not a layout "
+            "trueslope reads (delimited text, a NumPy .npy file or a WAV file)", p) from exc

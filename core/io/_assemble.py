@@ -11,6 +11,9 @@ Every reader ends here, so the rules below hold for every layout:
 * every sample must be finite: a NaN, an infinity or an empty field anywhere
   is an error naming where (trueslope never fills gaps, so one isolated blank
   field is refused just like a run of them);
+* a sample beyond ``MAX_ABS_VOLTS``, a time beyond ``MAX_ABS_TIME_S`` or an
+  interval outside ``MIN_INTERVAL_S``..``MAX_INTERVAL_S`` is refused, named as
+  written in the file (before scaling to SI), so no later step computes with it;
 * the sample interval comes from the time axis
   (``dt = (t[-1] - t[0]) / (n - 1)``), else the layout itself (a WAV rate),
   else the caller's ``sample_interval_s``, else the preamble.
@@ -27,9 +30,10 @@ import numpy as np
 
 from ..capture import Capture
 from ..errors import (CaptureFormatError, EmptyCaptureError, NonFiniteDataError,
-                      NoSampleIntervalError, TimeAxisError, TooFewSamplesError,
+                      NoSampleIntervalError, OutOfRangeError, TimeAxisError, TooFewSamplesError,
                       TrueslopeWarning, UnknownUnitError)
-from ..units import lookup_column_unit, parse_column_unit, parse_quantity, format_si
+from ..units import format_si, parse_column_unit
+from ._preamble import interval_from_metadata
 
 #: Fewest samples a capture may have.
 MIN_SAMPLES = 16
@@ -37,6 +41,25 @@ MIN_SAMPLES = 16
 NONUNIFORM_FRACTION = 0.01
 #: Sample interval given by the caller and the file's own may differ this much silently.
 INTERVAL_AGREEMENT = 0.01
+
+# Bounds of what a bench capture can hold. A value beyond them is a wrong unit,
+# a corrupt export or a hostile file; refusing it at import means no later step
+# ever computes with it (a 1e300 s step squared overflows, a 1e6 V "sample"
+# is a mislabelled column).
+#: Most columns a capture may have. A scope exports a handful of channels (4, 8,
+#: 16 on a logic-analyser hybrid) plus time and an index; 64 leaves room for any
+#: bench instrument while a row of thousands of numbers (a waveform written across
+#: a line, or a hostile file) is refused before it is parsed into arrays.
+MAX_COLUMNS = 64
+#: Largest sample magnitude, volts: ±100 kV covers any bench probe (high-voltage
+#: probes stop at 40-100 kV); a WAV or integer .npy is in the same units unscaled.
+MAX_ABS_VOLTS = 1e5
+#: Largest time value, seconds: about 317 years, so absolute Unix timestamps pass.
+MAX_ABS_TIME_S = 1e10
+#: Shortest sample interval, seconds (1 fs: no sampling instrument comes near).
+MIN_INTERVAL_S = 1e-15
+#: Longest sample interval, seconds (almost 3 hours: the slowest data logger).
+MAX_INTERVAL_S = 1e4
 
 # Names of a time axis in the languages oscilloscope software is commonly set to.
 _TIME_NAMES = frozenset([
@@ -47,22 +70,6 @@ _TIME_NAMES = frozenset([
 _CHANNEL_LIKE = re.compile(
     r"^(ch|chan|channel|kanal|canal|voie|trace|signal|volt|volts|voltage|spannung|tension|"
     r"tensi\u00f3n|input|in|ain|adc|probe|v|u|y|math|ref|left|right)\s*[-_#]?\s*\d*$")
-_INTERVAL_KEYS = frozenset([
-    "interval", "increment", "dt", "delta t", "\u03b4t", "\u0394t", "x increment", "xincrement",
-    "xincr", "x incr", "sample interval", "sampling interval", "sample period",
-    "sampling period", "time interval", "time increment", "time step", "timestep",
-    "time per sample", "time per point", "seconds per sample", "horizontal interval",
-    "horizontal increment", "sample time", "sampling time"])
-_INTERVAL_SUFFIXES = ("sample interval", "sampling interval", "sample period",
-                      "sampling period", "x increment", "time increment")
-_RATE_KEYS = frozenset([
-    "sample rate", "sampling rate", "samplerate", "sample frequency", "sampling frequency",
-    "fs", "rate", "samples per second", "sa/s", "sps"])
-_RATE_SUFFIXES = ("sample rate", "sampling rate", "sampling frequency", "sample frequency")
-_RATE_UNITS = frozenset(["sa/s", "s/s", "hz", "sps", "samples/s", "sample/s", "pts/s",
-                         "pt/s", "points/s", "samples/sec"])
-
-
 @dataclass(eq=False)
 class Column:
     """One numeric column on its way into a capture.
@@ -77,12 +84,18 @@ class Column:
         ``"time"``, ``"voltage"`` or None (no unit said).
     number : int
         1-based position in the file, for messages.
+    scale : float
+        Factor to SI still to apply (a column in mV: 1e-3). Readers leave it to
+        :func:`assemble`, which checks the values as written against the bounds
+        first, so a value that would overflow when scaled is named as written.
+        1.0 when ``values`` are already in SI units.
     """
 
     values: np.ndarray
     name: str = ""
     quantity: str | None = None
     number: int = 0
+    scale: float = 1.0
 
     def label(self) -> str:
         return f"column {self.number} ({self.name!r})" if self.name else f"column {self.number}"
@@ -114,96 +127,6 @@ def column_units(names: list[str], path: str, line: int | None) -> list[tuple[st
             raise UnknownUnitError(exc.message, path, line, j + 1) from None
         out.append((cu.name, cu.quantity, cu.scale))
     return out
-
-
-def _norm_key(key: str) -> str:
-    k = re.sub(r"[\(\[\{][^\)\]\}]*[\)\]\}]", " ", key.lower())
-    k = re.sub(r"[_\-.:=#]+", " ", k)
-    return re.sub(r"\s+", " ", k).strip()
-
-
-def _key_unit(key: str) -> str:
-    m = re.search(r"[\(\[\{]\s*([^\)\]\}]*?)\s*[\)\]\}]\s*$", key)
-    return m.group(1) if m else ""
-
-
-def _meta_number(value: str, decimal: str) -> tuple[float, str] | None:
-    v = value.strip().strip('"').strip()
-    if decimal == ",":
-        v = re.sub(r"(\d),(\d)", r"\1.\2", v)
-    v = re.sub(r"[,;\t]+", " ", v).strip()
-    m = re.match(r"^([+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?)\s*(\S*)", v)
-    if not m:
-        return None
-    try:
-        return parse_quantity(f"{m.group(1)} {m.group(2)}".strip())
-    except Exception:  # noqa: BLE001 - any unreadable value is simply not an interval
-        return None
-
-
-def interval_from_metadata(metadata: Mapping[str, str], decimal: str = "."
-                           ) -> tuple[float | None, str | None, list[TrueslopeWarning]]:
-    """Sample interval stated in a preamble, seconds.
-
-    Keys such as ``interval``, ``increment``, ``sample interval``,
-    ``sample period``, ``x increment`` or ``dt`` give the interval (a value in
-    s, ms, us, ns, or a bare number of seconds); keys such as ``sample rate``
-    or ``fs`` give a rate (Sa/s, S/s, Hz with any prefix, or a bare number),
-    and the interval is its reciprocal. A unit may also sit in the key, e.g.
-    ``Sample Interval [us]``. The first interval key wins, else the first
-    rate key.
-
-    Returns
-    -------
-    interval_s : float or None
-    key : str or None
-        The metadata key it came from.
-    warnings : list of TrueslopeWarning
-        For keys that looked like an interval but could not be read.
-    """
-    found_interval: tuple[float, str] | None = None
-    found_rate: tuple[float, str] | None = None
-    warnings: list[TrueslopeWarning] = []
-    for key, value in metadata.items():
-        k = _norm_key(key)
-        is_interval = k in _INTERVAL_KEYS or k.endswith(_INTERVAL_SUFFIXES)
-        is_rate = k in _RATE_KEYS or k.endswith(_RATE_SUFFIXES)
-        if not (is_interval or is_rate):
-            continue
-        parsed = _meta_number(value, decimal)
-        interval = None
-        if parsed is not None:
-            number, unit = parsed
-            if not unit:
-                unit = _key_unit(key)
-                if unit:
-                    try:
-                        scaled, unit = parse_quantity(f"1 {unit}")
-                    except Exception:  # noqa: BLE001
-                        scaled, unit = 1.0, "?"
-                    number *= scaled
-            u = unit.strip().lower()
-            if u in _RATE_UNITS or (is_rate and not u):
-                interval = 1.0 / number if number > 0 else None
-            else:
-                t = lookup_column_unit(unit) if u else ("time", 1.0)
-                if t is not None and t[0] == "time":
-                    interval = number * t[1]
-        if interval is None or not math.isfinite(interval) or interval <= 0:
-            warnings.append(TrueslopeWarning(
-                "unreadable-interval",
-                f"the preamble entry {key!r} = {value!r} looks like a sample interval or rate "
-                f"but could not be read as one (expected e.g. '1e-6 s', '2 us' or '500 kSa/s'); "
-                f"it was not used"))
-            continue
-        if is_interval and found_interval is None:
-            found_interval = (interval, key)
-        elif is_rate and not is_interval and found_rate is None:
-            found_rate = (interval, key)
-    best = found_interval or found_rate
-    if best is None:
-        return None, None, warnings
-    return best[0], best[1], warnings
 
 
 def _is_index(x: np.ndarray) -> bool:
@@ -277,6 +200,36 @@ def _check_finite(cols: list[Column], locate: Locator, path: str) -> None:
         f"{where}{more}. Every sample must be a finite number: trueslope does not fill gaps, "
         f"so even one blank field is refused; remove or repair those rows",
         path, line, first_col.number or None)
+
+
+def _check_range(cols: list[Column], time_col: Column | None, locate: Locator,
+                 path: str) -> None:
+    """Refuse a sample beyond the bench bounds; then scale every column to SI."""
+    for c in cols:
+        is_time = c is time_col
+        bound, unit = (MAX_ABS_TIME_S, "s") if is_time else (MAX_ABS_VOLTS, "V")
+        lim = bound / c.scale
+        v = c.values
+        if v.max() > lim or v.min() < -lim:
+            i = int(np.flatnonzero(np.abs(v) > lim)[0])
+            line, where = locate.where(i)
+            raw = float(v[i])
+            with np.errstate(over="ignore"):
+                si = raw * c.scale
+            if c.scale == 1.0:
+                said = f"{raw:.6g} {unit}"
+            elif math.isfinite(si):
+                said = f"{raw:.6g} in the column's unit (that is {si:.6g} {unit})"
+            else:
+                said = f"{raw:.6g} in the column's unit (too large to express in {unit})"
+            what = "time" if is_time else "sample"
+            raise OutOfRangeError(
+                f"the {what} {said} in {c.label()} on {where} is beyond anything a bench "
+                f"capture holds (plausible: within \u00b1{bound:g} {unit}); check the column's "
+                f"unit and the scope's export settings", path, line, c.number or None)
+        if c.scale != 1.0:
+            v *= c.scale
+            c.scale = 1.0
 
 
 def _check_time(t: np.ndarray, col: Column, locate: Locator, path: str) -> None:
@@ -365,6 +318,10 @@ def assemble(columns: list[Column], *, path: str, locate: Locator, layout: str,
     if not columns or columns[0].values.shape[0] == 0:
         raise EmptyCaptureError("no data rows: the file holds no numbers to read", path)
     n = columns[0].values.shape[0]
+    if len(columns) > MAX_COLUMNS:
+        raise CaptureFormatError(
+            f"{len(columns)} columns; trueslope reads at most {MAX_COLUMNS} (a time column and "
+            f"the channels of one instrument)", path)
 
     kept = []
     for c in columns:
@@ -423,6 +380,7 @@ def assemble(columns: list[Column], *, path: str, locate: Locator, layout: str,
             f"to measure a ramp", path)
 
     _check_finite(([time_col] if time_col else []) + channels, locate, path)
+    _check_range(([time_col] if time_col else []) + channels, time_col, locate, path)
     check()
 
     dt: float
@@ -455,10 +413,10 @@ def assemble(columns: list[Column], *, path: str, locate: Locator, layout: str,
                     f"the preamble says {meta_key!r} = {meta[meta_key]!r} "
                     f"({format_si(meta_dt, 's')}); the sample interval given, "
                     f"{format_si(dt, 's')}, was used instead"))
-            source = None
+            source = "the sample interval given"
         elif meta_dt is not None:
             dt = meta_dt
-            source = None
+            source = f"the preamble entry {meta_key!r}"
         else:
             raise NoSampleIntervalError(
                 "no time column, no sample interval or sample rate in a preamble, and no "
@@ -470,9 +428,11 @@ def assemble(columns: list[Column], *, path: str, locate: Locator, layout: str,
                 "interval-ignored",
                 f"the sample interval given ({format_si(sample_interval_s, 's')}) was not used: "
                 f"{source} gives {format_si(dt, 's')}"))
-    if not (math.isfinite(dt) and dt > 0):
-        raise CaptureFormatError(f"the sample interval works out as {dt!r} s; expected a "
-                                 f"positive number of seconds", path)
+    if not (math.isfinite(dt) and MIN_INTERVAL_S <= dt <= MAX_INTERVAL_S):
+        raise OutOfRangeError(
+            f"the sample interval from {source} works out as {dt:.6g} s, beyond anything a "
+            f"bench instrument samples at (plausible: {MIN_INTERVAL_S:g} s to "
+            f"{MAX_INTERVAL_S:g} s)", path)
 
     names = _unique_names(channels)
     chans = {name: np.ascontiguousarray(c.values, dtype=np.float64)

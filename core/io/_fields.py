@@ -9,7 +9,18 @@ from __future__ import annotations
 import csv
 import re
 
-__all__ = ["is_number", "split_row", "row_kind", "row_fields", "to_float"]
+from ._assemble import MAX_COLUMNS
+
+__all__ = ["MAX_LINE_BYTES", "is_number", "split_row", "row_kind", "row_fields", "to_float",
+           "wide_row", "long_line"]
+
+#: Longest line, bytes. A row of 64 columns of 20-character numbers is under 2 KiB
+#: and a preamble line rarely passes 200 bytes; 64 KiB is far beyond both, yet a
+#: line this long is split and checked in milliseconds. Longer lines are refused
+#: before anything splits them.
+MAX_LINE_BYTES = 64 * 1024
+
+_DELIMS = ((",", "','"), (";", "';'"), ("\t", "tabs"))
 
 _NUM_POINT = re.compile(r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?$")
 _NUM_COMMA = re.compile(r"[+-]?(?:\d+(?:,\d*)?|,\d+)(?:[eE][+-]?\d+)?$")
@@ -64,10 +75,13 @@ def split_row(line: str, delimiter: str | None) -> list[str]:
     return [p[1:-1].strip() if len(p) >= 2 and p[0] == p[-1] == '"' else p for p in parts]
 
 
-def row_kind(line: str, d: str | None, decimal: str) -> tuple[str, int, bool]:
-    """("blank" | "numeric" | "text", field count, row ends in the delimiter).
+def row_kind(line: str, d: str | None, decimal: str,
+             limit: int | None = None) -> tuple[str, int, bool]:
+    """("blank" | "numeric" | "text" | "wide", field count, row ends in the delimiter).
 
     ``d`` is the delimiter (None: runs of white space), ``decimal`` the mark.
+    With ``limit``, a row of more than ``limit`` fields whose first ``limit + 1``
+    fields are numbers is "wide", and the rest of its fields are not looked at.
 
     A row ending in the delimiter counts one field less, so that rows with and
     without a trailing delimiter belong to the same block of data.
@@ -77,6 +91,9 @@ def row_kind(line: str, d: str | None, decimal: str) -> tuple[str, int, bool]:
     parts = split_row(line, d)
     trailing = d is not None and len(parts) > 1 and parts[-1] == ""
     count = len(parts) - (1 if trailing else 0)
+    wide = limit is not None and count > limit
+    if wide:
+        parts = parts[:limit + 1]
     seen = False
     for p in parts:
         if p == "":
@@ -84,7 +101,30 @@ def row_kind(line: str, d: str | None, decimal: str) -> tuple[str, int, bool]:
         if not is_number(p, decimal):
             return "text", count, trailing
         seen = True
+    if wide and seen:
+        return "wide", count, trailing
     return ("numeric" if seen else "blank"), count, trailing
+
+
+def wide_row(count: int, delimiter: str | None) -> str:
+    """Message for a row of numbers with more than ``MAX_COLUMNS`` fields."""
+    sep = {",": "','", ";": "';'", "\t": "tabs", None: "spaces"}[delimiter]
+    return (f"the row holds {count} numbers separated by {sep}; trueslope reads at most "
+            f"{MAX_COLUMNS} columns (a time column and the channels), one sample per row. "
+            f"If the samples run along the line, export them as one column")
+
+
+def long_line(size: int, complete: bool, sample: bytes) -> str:
+    """Message for a line longer than ``MAX_LINE_BYTES`` (``sample``: its first bytes)."""
+    counts = [(sample.count(d.encode()) + 1, w) for d, w in _DELIMS]
+    counts.append((len(sample.split()), "spaces"))
+    n, sep = max(counts)
+    kib = MAX_LINE_BYTES // 1024
+    what = (f"the line is {size / 1024:.0f} KiB long" if complete
+            else f"no line end in the first {kib} KiB: the line is longer than that")
+    fields = f" ({n} fields separated by {sep} in its first {kib} KiB)" if n > MAX_COLUMNS else ""
+    return (f"{what}{fields}; a capture row is a few numbers (at most {MAX_COLUMNS} columns) "
+            f"and no line may pass {kib} KiB: this is not a capture of rows of numbers")
 
 
 def row_fields(line: str, delimiter: str | None, k: int) -> list[str]:

@@ -14,6 +14,11 @@ wrong. Line numbers in messages are 1-based physical lines of the file.
 
 A truncated last line (fewer fields than the others, or, with no line end
 after it, a number cut short) is dropped with a warning.
+
+Bounds, so that any file is answered quickly and in bounded memory: a line
+longer than ``MAX_LINE_BYTES`` is refused wherever it is met (in the head
+before the sniff splits anything, in a block before it is split), and a row of
+more than ``MAX_COLUMNS`` numbers is refused by the sniff.
 """
 
 from __future__ import annotations
@@ -30,7 +35,8 @@ from ..errors import (CaptureFormatError, EmptyCaptureError, RaggedRowsError,
                       TrueslopeWarning)
 from ._assemble import Column, assemble, column_units
 from ._decimal_comma import row_clash
-from ._fields import row_fields, to_float
+from ._fields import MAX_LINE_BYTES, long_line, row_fields, to_float
+from ._files import open_regular
 from .dialect import (MIN_RUN, SNIFF_LINES, Dialect, Sniff, decode_head, describe_layout,
                       head_lines, sniff_lines)
 
@@ -98,6 +104,9 @@ def _parse_lines(blk: _Blocks, a: int, b: int, cancel: Callable[[], None]) -> li
     for i, raw in enumerate(blk.mm[a:b].split(b"\n")):
         if i and i % 20000 == 0:
             cancel()
+        if len(raw) > MAX_LINE_BYTES:
+            raise CaptureFormatError(long_line(len(raw), True, raw[:MAX_LINE_BYTES]),
+                                     blk.path, line)
         text = raw.decode(blk.encoding, errors="replace").strip()
         if text:
             parts = row_fields(text, d, k)
@@ -180,6 +189,8 @@ def _data_end(blk_mm: mmap.mmap, size: int, sniff: Sniff, path: str
     if ls <= start:
         return e, None, None
     has_eol = blk_mm.find(b"\n", e, size) >= 0
+    if e - ls > MAX_LINE_BYTES:
+        return e, None, None  # not split here: the block reader refuses it, naming its line
     text = blk_mm[ls:e].decode(sniff.encoding, errors="replace").strip()
     parts = row_fields(text, d, k)
     reason = None
@@ -209,6 +220,20 @@ def _data_end(blk_mm: mmap.mmap, size: int, sniff: Sniff, path: str
     return ls, TrueslopeWarning("truncated-last-line", reason), ls
 
 
+def _refuse_long_lines(head: bytes, whole: bool, path: str) -> None:
+    """Refuse a line over ``MAX_LINE_BYTES`` in the head, before anything splits it."""
+    a, line = 0, 1
+    while True:
+        nl = head.find(b"\n", a)
+        end = len(head) if nl < 0 else nl
+        if end - a > MAX_LINE_BYTES or (nl < 0 and not whole and end - a >= MAX_LINE_BYTES):
+            raise CaptureFormatError(
+                long_line(end - a, nl >= 0 or whole, head[a:a + MAX_LINE_BYTES]), path, line)
+        if nl < 0:
+            return
+        a, line = nl + 1, line + 1
+
+
 def read_delimited(path: str, *, sample_interval_s: float | None = None,
                    progress: Callable[[float], None] = lambda f: None,
                    cancel: Callable[[], None] = lambda: None) -> Capture:
@@ -235,7 +260,7 @@ def read_delimited(path: str, *, sample_interval_s: float | None = None,
     EmptyCaptureError, CaptureFormatError, RaggedRowsError, UnknownUnitError,
     TimeAxisError, NonFiniteDataError, TooFewSamplesError, NoSampleIntervalError
     """
-    with open(path, "rb") as f:
+    with open_regular(path) as f:
         size = os.fstat(f.fileno()).st_size
         if size == 0:
             raise EmptyCaptureError("the file is empty (0 bytes)", path)
@@ -246,6 +271,7 @@ def read_delimited(path: str, *, sample_interval_s: float | None = None,
         sniff = None
         while True:
             whole = len(head) >= size
+            _refuse_long_lines(head, whole, path)
             lines = head_lines(head, whole, encoding, bom)
             sniff = sniff_lines(lines[:SNIFF_LINES], encoding, whole and len(lines) <= SNIFF_LINES,
                                 path)
@@ -273,11 +299,8 @@ def read_delimited(path: str, *, sample_interval_s: float | None = None,
             mm.madvise(mmap.MADV_SEQUENTIAL)  # read once, front to back: let the OS read ahead
         try:
             columns, warnings, blk = _read_data(mm, size, sniff, path, progress, cancel)
-            for c, (_, _, scale) in zip(columns, units):
-                if scale != 1.0:
-                    c *= scale
-            cols = [Column(values=v, name=name, quantity=q, number=j + 1)
-                    for j, (v, (name, q, _)) in enumerate(zip(columns, units))]
+            cols = [Column(values=v, name=name, quantity=q, number=j + 1, scale=scale)
+                    for j, (v, (name, q, scale)) in enumerate(zip(columns, units))]
             progress(0.97)
             # Still inside: messages about rows read the map to find their line.
             return assemble(cols, path=path, locate=blk, layout=describe_layout(sniff),

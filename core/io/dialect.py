@@ -40,7 +40,8 @@ from dataclasses import dataclass, field
 from ..errors import CaptureFormatError, TrueslopeWarning
 from ..units import lookup_column_unit
 from ._decimal_comma import decimal_comma_clash
-from ._fields import is_number, row_kind as _kind, split_row
+from ._assemble import MAX_COLUMNS
+from ._fields import is_number, row_kind as _kind, split_row, wide_row
 
 __all__ = ["SNIFF_LINES", "MIN_RUN", "Dialect", "Sniff", "decode_head", "head_lines",
            "sniff_lines", "describe_layout"]
@@ -329,14 +330,19 @@ def sniff_lines(lines: list[tuple[int, str]], encoding: str, whole: bool,
     ------
     CaptureFormatError
         A ',' separated file whose numbers seem to be written with a decimal
-        comma as well (see :mod:`._decimal_comma`).
+        comma as well (see :mod:`._decimal_comma`); a row of more than
+        ``MAX_COLUMNS`` numbers (named by its line).
     """
     best = None
+    widest: tuple[int, int, str | None] | None = None  # (line index, fields, delimiter)
     for prio, (d, dec) in enumerate(_CANDIDATES):
         if d == dec and not any("," in p for _, text in lines if '"' in text
                                 for p in split_row(text, d)):
             continue  # a comma is both only where quotes keep "1,015" whole
-        kinds = [_kind(text, d, dec) for _, text in lines]
+        kinds = [_kind(text, d, dec, MAX_COLUMNS) for _, text in lines]
+        wide = next((i for i, kd in enumerate(kinds) if kd[0] == "wide"), None)
+        if wide is not None and (widest is None or wide < widest[0]):
+            widest = (wide, kinds[wide][1], d)
         runs: list[tuple[int, int, int]] = []  # (start index, count, fields)
         cur: list[int] | None = None
         for i, (kind, k, _) in enumerate(kinds):
@@ -390,6 +396,9 @@ def sniff_lines(lines: list[tuple[int, str]], encoding: str, whole: bool,
         score = (coverage - bad, -suspicious, header_match, k, -prio)
         if best is None or score > best[0]:
             best = (score, d, dec, k, start, header_idx, trailing)
+    if widest is not None:
+        # Refused here, before any block reader turns thousands of fields into arrays.
+        raise CaptureFormatError(wide_row(widest[1], widest[2]), path, widest[0] + 1)
     if best is None:
         return None
     _, d, dec, k, start, header_idx, trailing = best

@@ -145,7 +145,7 @@ def test_truncated_wav_keeps_whole_frames_with_a_warning(tmp_path):
     p.write_bytes(p.read_bytes()[:-7])  # 7 bytes short: 3 frames and a half missing
     cap = load_capture(p)
     assert cap.samples == (2 * N - 7) // 2  # whole 16-bit frames only, none invented
-    assert "wav-reader" in [w.code for w in cap.warnings]
+    assert "truncated-data" in [w.code for w in cap.warnings]
 
 
 def test_wav_content_is_found_whatever_the_name(tmp_path):
