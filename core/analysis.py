@@ -86,7 +86,7 @@ def _times(times_s: np.ndarray, most: int = 5) -> str:
 
 def _warnings(capture: Capture, seg: Segmentation, figures: Figures, n_out: int,
               left_out: bool, clip: ClipWindow | None, settings: Settings,
-              shortest_ramp_s: float) -> tuple[TrueslopeWarning, ...]:
+              shortest_ramp_s: float, by_hand: int = 0) -> tuple[TrueslopeWarning, ...]:
     """The warnings of an analysis, each with its code from ``errors.WARNING_CODES``."""
     out = list(capture.warnings)
     nl, floor = figures.nonlinearity_pct, figures.nonlinearity_floor_pct
@@ -139,6 +139,10 @@ def _warnings(capture: Capture, seg: Segmentation, figures: Figures, n_out: int,
     elif seg.full_cycles < 3:
         out.append(TrueslopeWarning(
             "few-cycles", f"only {seg.full_cycles} full cycles: figures rest on little data"))
+    if by_hand:
+        out.append(TrueslopeWarning(
+            "excluded-cycles", f"{by_hand} cycle(s) left out of the averaged figures by hand "
+                               f"(marked in the cycle list)"))
     if n_out:
         out.append(TrueslopeWarning(
             "outlying-cycles", f"{n_out} cycle(s) differ markedly from the rest (marked in "
@@ -291,6 +295,14 @@ def _analyse(capture: Capture, settings: Settings, progress: ProgressFn | None,
     n_out = int(np.count_nonzero(~keep))
     if not (n_out and np.count_nonzero(keep) >= 2):
         keep = np.ones(len(cycles), dtype=bool)
+    by_hand = np.zeros(len(cycles), dtype=bool)
+    by_hand[[i for i in settings.excluded_cycles if i < len(cycles)]] = True
+    if np.any(by_hand):
+        if np.count_nonzero(keep & ~by_hand) < 1:
+            raise AnalysisError("every cycle is left out: keep at least one")
+        keep &= ~by_hand
+        cycles = tuple(dataclasses.replace(c, excluded=True) if by_hand[c.index] else c
+                       for c in cycles)
     if not np.all(steady.keep) or not np.all(keep):
         # outlying cycles (a false trigger, a glitch) and unsteady ones would bend the
         # coherent average: average the others; outliers stay in the cycle list, marked
@@ -312,8 +324,8 @@ def _analyse(capture: Capture, settings: Settings, progress: ProgressFn | None,
                      if settings.context is not None else None)
     report(1.0)
     warnings = _warnings(capture, seg, figures, n_out,
-                         bool(np.count_nonzero(keep) < len(cycles)), clip, settings,
-                         float(np.min(seg.ramp_time_s)))
+                         bool(np.count_nonzero(keep | by_hand) < len(cycles)), clip, settings,
+                         float(np.min(seg.ramp_time_s)), int(np.count_nonzero(by_hand)))
     return Analysis(source=capture.source, channel=name, samples=capture.samples,
                     sample_interval_s=dt, settings=settings, segmentation=seg,
                     figures=figures, cycles=cycles, averaged=av, noise=noise,

@@ -169,6 +169,7 @@ WARNING_CODES: dict[str, str] = {
                "and the figures they touch are bounds",
     "window-clipped": "the fit window asked for runs past the ramp's end; each ramp is fitted "
                       "to its own end",
+    "excluded-cycles": "cycles left out of the average by hand",
     "outlying-cycles": "some cycles differ markedly from the rest and are left out of the "
                        "averaged figures",
 }

@@ -123,7 +123,8 @@ class Segmentation(ToDict):
 
 @dataclass(frozen=True)
 class CycleFigures(ToDict):
-    """Figures of one full cycle, fitted alone (includes its noise)."""
+    """Figures of one full cycle, fitted alone (includes its noise); ``outlier`` and
+    ``excluded`` (left out by hand) cycles are not in the average."""
 
     index: int
     ramp_start_s: float
@@ -141,6 +142,7 @@ class CycleFigures(ToDict):
     terminal_nonlinearity_pct: float
     residual_rms_v: float
     outlier: bool = False
+    excluded: bool = False
 
 
 @dataclass(frozen=True)
@@ -152,32 +154,15 @@ class AveragedCycle(ToDict):
     the measurement frame (mirrored for a falling ramp, so that the same
     physics gives the same sign).
 
-    Attributes
-    ----------
-    time_s : ndarray
-        Bin centre, seconds from the ramp start.
-    voltage_v : ndarray
-        Mean voltage in the bin.
-    stderr_v : ndarray
-        Standard error of that mean (noise of the bin / sqrt(count)).
-    count : ndarray
-        Samples averaged in the bin.
-    in_window : ndarray of bool
-        Bins inside the fit window.
-    residual_v : ndarray
-        Averaged voltage minus the best-fit line (measurement frame).
-    smoothed_residual_v : ndarray
-        The systematic part of ``residual_v`` (noise smoothed away).
-    terminal_residual_v : ndarray
-        Smoothed residual against the terminal line through the window's ends.
-    ramp_time_s : float
-        Mean ramp time the phase was scaled by.
-    window_start_s, window_end_s : float
-        Fit window, seconds from the ramp start.
-    fit : LineFit
-        Best-fit line over the window (measurement frame; time from ramp start).
-    mirrored : bool
-        True for a falling ramp.
+    ``time_s`` bin centres (seconds from the ramp start); ``voltage_v`` the mean
+    voltage in each bin, ``stderr_v`` its standard error, ``count`` the samples in
+    it; ``in_window`` the bins inside the fit window (``window_start_s`` to
+    ``window_end_s``); ``residual_v`` the averaged voltage minus the best-fit line
+    ``fit`` (measurement frame, time from the ramp start), ``smoothed_residual_v``
+    its systematic part, ``terminal_residual_v`` the same against the end-point
+    line; ``ramp_time_s`` the mean ramp time the phase is scaled by; ``mirrored``
+    True for a falling ramp. The ``*_true_v`` properties give the residuals as
+    trace minus line in true volts, for display.
     """
 
     time_s: np.ndarray
@@ -198,6 +183,16 @@ class AveragedCycle(ToDict):
     def measured_v(self) -> np.ndarray:
         """Averaged voltage in the measurement frame (mirrored when falling)."""
         return -self.voltage_v if self.mirrored else self.voltage_v
+
+    @property
+    def residual_true_v(self) -> np.ndarray:
+        """Trace minus line in true volts (the residual un-mirrored)."""
+        return -self.residual_v if self.mirrored else self.residual_v
+
+    @property
+    def smoothed_residual_true_v(self) -> np.ndarray:
+        """The systematic residual, trace minus line in true volts."""
+        return -self.smoothed_residual_v if self.mirrored else self.smoothed_residual_v
 
 
 @dataclass(frozen=True)

@@ -39,6 +39,8 @@ class Settings(ToDict):
     context : CircuitContext or None
         What the user knows of the circuit (capacitance, current, probe...);
         enables the self-check.
+    excluded_cycles : tuple of int
+        Cycles (0-based indices in the cycle list) left out of the average by hand.
     """
 
     trim_fraction: float = DEFAULT_TRIM_FRACTION
@@ -47,6 +49,7 @@ class Settings(ToDict):
     sync_channel: str | int | None = None
     phase_bins: int | None = None
     context: CircuitContext | None = None
+    excluded_cycles: tuple[int, ...] = ()
 
     def __post_init__(self) -> None:
         t = self.trim_fraction
@@ -59,6 +62,8 @@ class Settings(ToDict):
                 raise SettingsError(
                     f"fit window must satisfy 0 <= start < end (seconds from the ramp "
                     f"start), got {a} to {b}", "window")
+        if any(i < 0 for i in self.excluded_cycles):
+            raise SettingsError("cycle numbers start at 0", "excluded_cycles")
         if self.phase_bins is not None and self.phase_bins < 16:
             raise SettingsError(f"must be at least 16, got {self.phase_bins}", "phase_bins")
 

@@ -28,7 +28,7 @@ from typing import Callable, Mapping, Protocol
 
 import numpy as np
 
-from ..capture import Capture
+from ..capture import MAX_ABS_VOLTS, SAMPLE_INTERVAL_RANGE_S, Capture
 from ..errors import (CaptureFormatError, EmptyCaptureError, NonFiniteDataError,
                       NoSampleIntervalError, OutOfRangeError, TimeAxisError, TooFewSamplesError,
                       TrueslopeWarning, UnknownUnitError)
@@ -51,15 +51,11 @@ INTERVAL_AGREEMENT = 0.01
 #: bench instrument while a row of thousands of numbers (a waveform written across
 #: a line, or a hostile file) is refused before it is parsed into arrays.
 MAX_COLUMNS = 64
-#: Largest sample magnitude, volts: ±100 kV covers any bench probe (high-voltage
-#: probes stop at 40-100 kV); a WAV or integer .npy is in the same units unscaled.
-MAX_ABS_VOLTS = 1e5
 #: Largest time value, seconds: about 317 years, so absolute Unix timestamps pass.
 MAX_ABS_TIME_S = 1e10
-#: Shortest sample interval, seconds (1 fs: no sampling instrument comes near).
-MIN_INTERVAL_S = 1e-15
-#: Longest sample interval, seconds (almost 3 hours: the slowest data logger).
-MAX_INTERVAL_S = 1e4
+#: The bench ranges of samples (volts; a WAV or integer .npy is in the same units
+#: unscaled) and of the sample interval are the capture's own (``core/capture.py``).
+MIN_INTERVAL_S, MAX_INTERVAL_S = SAMPLE_INTERVAL_RANGE_S
 
 # Names of a time axis in the languages oscilloscope software is commonly set to.
 _TIME_NAMES = frozenset([

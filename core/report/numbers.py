@@ -51,7 +51,8 @@ FIGURES: dict[str, FigureFormat] = {
     "nonlinearity_pct": FigureFormat("Nonlinearity (best-fit line)", "%", 3),
     "terminal_nonlinearity_pct": FigureFormat("Nonlinearity (end-point line)", "%", 3),
     "slope_error_pct": FigureFormat("Slope error", "%", 3),
-    "displacement_error_pct": FigureFormat("Displacement error", "%", 3),
+    "displacement_error_pct": FigureFormat("Displacement error (signed, end-point line)",
+                                           "%", 3),
     "transmission_error_pct": FigureFormat("Transmission error", "%", 3),
     "midpoint_time_error_s": FigureFormat("Midpoint time error", "s", 3),
     "midpoint_time_error_pct": FigureFormat("Midpoint time error (of the ramp time)", "%", 3),
@@ -61,10 +62,24 @@ FIGURES: dict[str, FigureFormat] = {
     "nonlinearity_floor_pct": FigureFormat("Smallest resolvable nonlinearity", "%", 3),
     "below_floor": FigureFormat("Nonlinearity below that floor", "", 0),
     "trim_fraction": FigureFormat("Trim at each end", "%", 3),
-    "window_start_s": FigureFormat("Window from", "s", 4),
-    "window_end_s": FigureFormat("Window to", "s", 4),
+    "window_start_s": FigureFormat("Window start (from the ramp start)", "s", 4),
+    "window_end_s": FigureFormat("Window end (from the ramp start)", "s", 4),
     "fitted_span_v": FigureFormat("Span in the window", "V", 4),
 }
+
+
+#: The figures by group, in the order the window's panel and the terminal show them.
+FIGURE_GROUPS: tuple[tuple[str, tuple[str, ...]], ...] = (
+    ("Linearity", ("nonlinearity_pct", "terminal_nonlinearity_pct", "peak_deviation_v",
+                   "residual_rms_v", "slope_error_pct", "displacement_error_pct",
+                   "transmission_error_pct", "midpoint_time_error_s")),
+    ("Ramp", ("slope_v_per_s", "fitted_span_v", "amplitude_v", "start_v", "end_v", "offset_v",
+              "direction")),
+    ("Timing", ("frequency_hz", "period_s", "period_jitter_s", "ramp_time_s", "retrace_time_s",
+                "full_cycles")),
+    ("Resolution", ("noise_rms_v", "adc_step_v", "nonlinearity_floor_pct", "below_floor")),
+    ("Fit window", ("window_start_s", "window_end_s", "trim_fraction")),
+)
 
 
 def finite(value: Any) -> bool:

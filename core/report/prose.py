@@ -18,6 +18,11 @@ from .numbers import pct, si
 STRENGTH_CLEAR = 3.0
 STRENGTH_STRONG = 10.0
 
+#: Each physical cause in words.
+CAUSE_NAMES = {"shunt-loading": "shunt loading", "voltage-coefficient": "a voltage coefficient",
+               "dielectric-absorption": "dielectric absorption",
+               "capacitance-growing": "a capacitance that grows with voltage"}
+
 #: What each probe-match code means.
 PROBE_MATCH_WORDS = {
     "probe-10x": "10x probe (about 10 Mohm)",
@@ -72,7 +77,8 @@ def explanation(d: Diagnosis) -> str:
                "resolves")
         lean = ""
         if d.closest_cause is not None:
-            lean = (f" The closest cause, {d.closest_cause}, would bend it by "
+            lean = (f" The closest cause, {CAUSE_NAMES.get(d.closest_cause, d.closest_cause)}, "
+                    f"would bend it by "
                     f"{pct(d.closest_cause_pct)} of the span.")
         return (f"The ramp is straight to within what this capture resolves "
                 f"({pct(d.floor_pct)} of the span): {why}.{lean}")
@@ -88,15 +94,15 @@ def _explained(d: Diagnosis) -> str:
         return (f"The slope falls steadily as the voltage rises (by {pct(d.slope_change_pct)} "
                 f"across the window), the exponential approach of a current into a capacitor "
                 f"with a resistance across it, time constant R C = {si(d.tau_s, 's', 3)} "
-                f"({d.tau_fraction:.3g} ramp times).{r_txt} The bow is {pct(d.bow_pct)} of "
-                f"the span.")
+                f"({d.tau_fraction:.3g} ramp times).{r_txt} The model's bow is {pct(d.bow_pct)} "
+                f"of the span.")
     if d.signature == "voltage-coefficient" and d.vc_form == "growing":
         return (f"The slope falls as the voltage rises, by about "
                 f"{pct(-100 * (d.voltage_coefficient_per_v or math.nan))} per volt: a "
                 f"capacitance that grows with voltage at constant current (for example a "
                 f"junction at the ramp node whose reverse bias shrinks as the ramp rises). "
                 f"A resistance across the capacitor bends a ramp much the same way, but here "
-                f"the shape fits the growing capacitance better by a clear margin. The bow is "
+                f"the shape fits the growing capacitance better by a clear margin. The model's bow is "
                 f"{pct(d.bow_pct)} of the span.")
     if d.signature == "voltage-coefficient":
         form = {"exp": "a charging current rising in proportion to the voltage fits better "
@@ -108,13 +114,13 @@ def _explained(d: Diagnosis) -> str:
         return (f"The slope rises as the voltage rises, by about "
                 f"{pct(100 * (d.voltage_coefficient_per_v or math.nan))} per volt: the "
                 f"capacitance falls with DC bias (class 2 ceramics do this), or the charge "
-                f"current grows with the voltage; {form}. The bow is {pct(d.bow_pct)} of the "
+                f"current grows with the voltage; {form}. The model's bow is {pct(d.bow_pct)} of the "
                 f"span.")
     if d.signature == "dielectric-absorption":
         return (f"The slope starts high after each reset and settles with a time constant of "
                 f"about {si(d.tau_s, 's', 3)} ({pct(100 * (d.tau_fraction or math.nan))} of the "
                 f"ramp), as charge soaks back into the dielectric (dielectric absorption, the "
-                f"Dow model's series R-C branches). The bow is {pct(d.bow_pct)} of the span; "
+                f"Dow model's series R-C branches). The model's bow is {pct(d.bow_pct)} of the span; "
                 f"it would change with the repetition rate.")
     return _unexplained(d)
 
@@ -162,7 +168,8 @@ def _unexplained(d: Diagnosis) -> str:
         description = _shape_sentence(d)
     nearest = ""
     if d.closest_cause is not None:
-        nearest = (f" The nearest listed cause, {d.closest_cause}, leaves "
+        nearest = (f" The nearest listed cause, "
+                   f"{CAUSE_NAMES.get(d.closest_cause, d.closest_cause)}, leaves "
                    f"{pct(d.closest_cause_pct)} of the span unexplained.")
     return (f"{description} None of shunt loading, a voltage coefficient or dielectric "
             f"absorption explains it.{nearest}")

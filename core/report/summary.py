@@ -6,6 +6,7 @@ import math
 from pathlib import Path
 
 from ..results import Analysis
+from .numbers import FIGURE_GROUPS, FIGURES
 from .numbers import figure_text as ft
 from .numbers import pct, si
 from .prose import explanation, likely_cause, next_checks, selfcheck_summary, strength_words
@@ -21,41 +22,65 @@ def _jitter(jitter_s: float, dt_s: float) -> str:
     return f"{ft('period_jitter_s', jitter_s)} RMS ({samples:.2g} sample{'s' if samples > 1 else ''})"
 
 
+def window_note(a: Analysis) -> str:
+    """How the fit window was set: trimmed, explicit, or shortened (clipping, ramp end)."""
+    f = a.figures
+    codes = {w.code for w in a.warnings}
+    if "clipped" in codes:
+        return "shortened to keep clipped samples out"
+    if a.settings.window_s is not None:
+        return "cut at the ramp's end" if "window-clipped" in codes else "set explicitly"
+    return f"{ft('trim_fraction', f.trim_fraction)} trimmed at each end"
+
+
+def figure_value(a: Analysis, key: str) -> str:
+    """A summary figure as the terminal and the window show it, with what belongs beside it
+    (the slope's interval, the jitter in samples, the midpoint error as % of the ramp,
+    a bound's mark)."""
+    f = a.figures
+    v = getattr(f, key)
+    if key == "slope_v_per_s":
+        lo, hi = f.slope_ci95_v_per_s
+        text = f"{ft(key, v)} ± {ft('slope_ci95_v_per_s', 0.5 * (hi - lo))} (95 %)"
+    elif key == "period_jitter_s":
+        text = _jitter(v, a.sample_interval_s)
+    elif key == "midpoint_time_error_s":
+        text = (f"{ft(key, v)} ({ft('midpoint_time_error_pct', f.midpoint_time_error_pct)} "
+                f"of the ramp time; + is late)")
+    elif key == "full_cycles":
+        text = f"{f.full_cycles} ({f.partial_cycles} partial left out)"
+    elif key == "adc_step_v" and not v:
+        text = "none found"
+    elif key == "nonlinearity_pct" and f.below_floor:
+        text = f"{ft(key, v)} (below the resolution floor)"
+    elif key == "trim_fraction":
+        text = window_note(a)
+    else:
+        text = ft(key, v)
+    if key in f.bounds:
+        text += " (a bound: clipped)"
+    return text
+
+
+def figure_label(key: str) -> str:
+    """The figure's one label (``Fit window``'s trim row says how the window was set)."""
+    return "Window set" if key == "trim_fraction" else FIGURES[key].label
+
+
 def summary_lines(a: Analysis) -> list[str]:
     """The readable summary of one analysis, as lines of text."""
     f = a.figures
-    lo, hi = f.slope_ci95_v_per_s
     lines = [
         f"{Path(a.source).name} — channel {a.channel}: {a.samples} samples at "
         f"{si(1.0 / a.sample_interval_s, 'Sa/s')}",
         f"  {f.direction} sawtooth, {f.full_cycles} full cycles ({f.partial_cycles} partial left out)"
         + (" — segmented from the sync channel" if a.segmentation.source == "sync" else ""),
-        f"  frequency      {ft('frequency_hz', f.frequency_hz)}   period {ft('period_s', f.period_s)}"
-        f"   jitter {_jitter(f.period_jitter_s, a.sample_interval_s)}",
-        f"  ramp time      {ft('ramp_time_s', f.ramp_time_s)}   retrace {ft('retrace_time_s', f.retrace_time_s)}",
-        f"  slope          {ft('slope_v_per_s', f.slope_v_per_s)} ± "
-        f"{ft('slope_ci95_v_per_s', 0.5 * (hi - lo))} (95 %)",
-        f"  offset         {ft('offset_v', f.offset_v)}   start {ft('start_v', f.start_v)}   "
-        f"end {ft('end_v', f.end_v)}   amplitude {ft('amplitude_v', f.amplitude_v)}",
-        f"  window         {ft('window_start_s', f.window_start_s)} to "
-        f"{ft('window_end_s', f.window_end_s)} from the ramp start"
-        + (f" (trim {ft('trim_fraction', f.trim_fraction)} at each end)"
-           if a.settings.window_s is None else " (set explicitly)"),
-        f"  nonlinearity   {ft('nonlinearity_pct', f.nonlinearity_pct)} of span (best-fit line; "
-        f"peak deviation {ft('peak_deviation_v', f.peak_deviation_v)})"
-        + ("  — below the resolution floor" if f.below_floor else ""),
-        f"                 {ft('terminal_nonlinearity_pct', f.terminal_nonlinearity_pct)} against "
-        f"the end-point line",
-        f"  sweep errors   slope e_s {ft('slope_error_pct', f.slope_error_pct)}   displacement e_d "
-        f"{ft('displacement_error_pct', f.displacement_error_pct)}   transmission e_t "
-        f"{ft('transmission_error_pct', f.transmission_error_pct)}",
-        f"  mid-level      crosses {ft('midpoint_time_error_s', abs(f.midpoint_time_error_s))} "
-        f"{'late' if f.midpoint_time_error_s > 0 else 'early'} against the chord "
-        f"({ft('midpoint_time_error_pct', f.midpoint_time_error_pct)} of the ramp time)",
-        f"  resolution     noise {ft('noise_rms_v', f.noise_rms_v)} RMS, ADC step "
-        f"{ft('adc_step_v', f.adc_step_v) if f.adc_step_v else 'none found'}, floor "
-        f"{ft('nonlinearity_floor_pct', f.nonlinearity_floor_pct)}",
     ]
+    width = max(len(figure_label(k)) for _, keys in FIGURE_GROUPS for k in keys)
+    for group, keys in FIGURE_GROUPS:
+        lines.append(f"  {group}")
+        for k in keys:
+            lines.append(f"    {figure_label(k):<{width}}  {figure_value(a, k)}")
     lines += findings_lines(a)
     for w in a.warnings:
         lines.append(f"  note: {w}")
@@ -76,11 +101,11 @@ def diagnosis_line(a: Analysis) -> str:
 def findings_lines(a: Analysis) -> list[str]:
     """Diagnosis and self-check lines of the summary."""
     d = a.diagnosis
-    out = [f"  diagnosis      {diagnosis_line(a)}", f"                 {explanation(d)}"]
+    out = [f"  Diagnosis: {diagnosis_line(a)}", f"    {explanation(d)}"]
     out += [f"    - {step}" for step in next_checks(d)]
     c = a.context_check
     if c is not None:
-        out.append("  self-check")
+        out.append("  Self-check against the stated circuit")
         for it in c.items:
             cause = likely_cause(it, d)
             if it.expected is None or it.measured is None:

@@ -459,9 +459,10 @@ def test_window_end_reported_as_clipped():
 def test_window_summary_shows_the_window_used():
     _, truth, a = _run_window(_window_truth()["requested_window_s"])
     text = summary_text(a)
-    lines = [ln for ln in text.splitlines() if "window" in ln.lower() and "from the ramp" in ln]
+    lines = [ln for ln in text.splitlines() if "Window end (from the ramp start)" in ln]
     assert lines, text
-    assert "(trim" not in lines[0], lines[0]
+    how = [ln for ln in text.splitlines() if "Window set" in ln]
+    assert how and "trimmed" not in how[0] and "cut at the ramp's end" in how[0], how
     found = bench.times_in(lines[0])
     assert _time_matches(found, truth["window_end_s"], truth["dt_s"]), lines[0]
     asked = truth["requested_window_s"][1]
