@@ -40,6 +40,8 @@ from ._files import open_regular
 from .dialect import (MIN_RUN, SNIFF_LINES, Dialect, Sniff, decode_head, describe_layout,
                       head_lines, sniff_lines)
 
+#: Lines looked at for data after a preamble longer than the first sniff's lines.
+LONG_PREAMBLE_LINES = 5000
 HEAD_BYTES = 64 * 1024
 MAX_HEAD_BYTES = 1024 * 1024
 #: Bytes of data parsed per block; progress and cancel are checked between blocks.
@@ -276,7 +278,11 @@ def read_delimited(path: str, *, sample_interval_s: float | None = None,
             sniff = sniff_lines(lines[:SNIFF_LINES], encoding, whole and len(lines) <= SNIFF_LINES,
                                 path)
             if sniff is None and len(lines) > SNIFF_LINES:
-                sniff = sniff_lines(lines, encoding, whole, path)
+                # a preamble longer than the first sniff: look further, but boundedly (a
+                # file of no numbers at all must be refused in well under a second)
+                more = lines[:LONG_PREAMBLE_LINES]
+                sniff = sniff_lines(more, encoding, whole and len(lines) <= LONG_PREAMBLE_LINES,
+                                    path)
             if (sniff is not None and sniff.data_line < len(lines) - MIN_RUN) or whole \
                     or len(head) >= MAX_HEAD_BYTES:
                 break
@@ -287,7 +293,8 @@ def read_delimited(path: str, *, sample_interval_s: float | None = None,
                     f"no line end in the first {len(head) // 1024} KiB: this is not a text "
                     f"capture of rows of numbers", path)
             raise EmptyCaptureError(
-                f"no rows of numbers found in the first {len(lines)} lines; expected rows of "
+                f"no rows of numbers found in the first {min(len(lines), LONG_PREAMBLE_LINES)} "
+                f"lines; expected rows of "
                 f"numbers separated by commas, semicolons, tabs or spaces, after an optional "
                 f"preamble and a header row", path)
         progress(0.02)
