@@ -130,6 +130,19 @@ class SettingsError(TrueslopeError, ValueError):
         super().__init__(message)
 
 
+class LimitsError(SettingsError):
+    """A limits file cannot be read, or a limit in it is not valid.
+
+    ``field`` is the dotted key it is about (``"limits.slope_v_per_s.min"``), ``path``
+    the limits file; the message is one line and starts with the file's name.
+    """
+
+    def __init__(self, message: str, field: str | None = None,
+                 path: str | Path | None = None) -> None:
+        self.path = None if path is None else str(path)
+        super().__init__(message, field)
+
+
 class Cancelled(TrueslopeError):
     """The caller's cancel flag was raised; the work stopped cleanly."""
 
