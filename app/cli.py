@@ -9,9 +9,11 @@ from __future__ import annotations
 import argparse
 import sys
 
+from trueslope.core.cli import OneLineParser
+
 
 def _open_parser() -> argparse.ArgumentParser:
-    p = argparse.ArgumentParser(
+    p = OneLineParser(
         prog="trueslope open",
         description="Open the trueslope bench window, optionally on a capture.")
     p.add_argument("file", nargs="?", help="capture to open")
@@ -21,14 +23,30 @@ def _open_parser() -> argparse.ArgumentParser:
     p.add_argument("--sample-interval", help="sample interval when the file has no time column, e.g. 2u")
     p.add_argument("--screenshot", metavar="OUT.png",
                    help="render the window with the analysis finished, save it and exit")
+    p.add_argument("--size", metavar="WIDTHxHEIGHT",
+                   help="window size in pixels, e.g. 1280x720 (screenshots: 1600x1000)")
+    g = p.add_argument_group("circuit context (typed into the window's form for this file)")
+    g.add_argument("--capacitance", help="timing capacitance, e.g. 47n")
+    g.add_argument("--current", help="charging current, e.g. 1.2m")
+    g.add_argument("--set-resistor", help="current-setting resistor, e.g. 3.3k (with --reference)")
+    g.add_argument("--reference", help="reference voltage across the set resistor, e.g. 1.25")
+    g.add_argument("--probe", help="probe loading as R,C, e.g. 10M,12p")
+    g.add_argument("--tolerance", help="tolerance of the expected figures, e.g. 10%%")
     return p
 
 
 def main(argv: list[str] | None = None) -> int:
+    """Run the command; ``argv`` None means this process is the command (the terminal
+    analysis then ends the process itself once its output is written)."""
+    as_program = argv is None
     argv = list(sys.argv[1:] if argv is None else argv)
     if argv and argv[0] in ("analyze", "analyse"):
+        from trueslope.core.cli import leave
         from trueslope.core.cli import main as analyze_main
-        return analyze_main(argv[1:])
+        status = analyze_main(argv[1:])
+        if as_program:
+            leave(status)
+        return status
     if argv and argv[0] in ("-h", "--help"):
         print("usage: trueslope [open [FILE] [options]] | trueslope analyze FILE... [options]\n\n"
               "  trueslope               open the bench window\n"
@@ -37,11 +55,16 @@ def main(argv: list[str] | None = None) -> int:
         return 0
     if argv and argv[0] == "open":
         argv = argv[1:]
-    args = _open_parser().parse_args(argv)
+    try:
+        args = _open_parser().parse_args(argv)
+    except SystemExit as exc:  # -h, or a refusal already printed on one line
+        return exc.code if isinstance(exc.code, int) else 2
     from trueslope.app.launch import launch  # Qt is imported only here
     return launch(args.file, channel=args.channel, sync_channel=args.sync_channel,
                   trim=args.trim, sample_interval=args.sample_interval,
-                  screenshot=args.screenshot)
+                  screenshot=args.screenshot, size=args.size,
+                  circuit={k: getattr(args, k) for k in ("capacitance", "current", "set_resistor",
+                                                         "reference", "probe", "tolerance")})
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -1,20 +1,82 @@
 """``trueslope analyze``: the terminal analysis.
 
-Exit status 0 on success, 2 on bad input (one line on stderr, no traceback).
+Every file is measured on its own: the good ones are reported, each bad one is refused
+with one line on stderr naming it (``trueslope: ...``, no traceback). Exit status 0 when
+every file was measured, 2 when anything was refused (a bad option included).
 """
 
 from __future__ import annotations
 
 import argparse
+import dataclasses
+import errno
+import json
+import math
+import os
+import re
 import sys
+import tempfile
+import warnings
+from contextlib import contextmanager
 from pathlib import Path
+from typing import Any, Iterator, NoReturn, Sequence
 
-from .errors import NoSampleIntervalError, SettingsError, TrueslopeError
+from .errors import (AnalysisError, ChannelNotFoundError, NoSampleIntervalError, SettingsError,
+                     TrueslopeError)
 from .settings import Settings
 
+#: An option value argparse would take for an option: a negative number or a list starting
+#: with one ("-1,1", "-1u,2u", "-.5").
+_NEGATIVE_VALUE = re.compile(r"-[0-9.]")
 
-def build_parser() -> argparse.ArgumentParser:
-    p = argparse.ArgumentParser(
+
+class Refusal(Exception):
+    """Something the command refuses, worded as its one stderr line (without the prefix)."""
+
+
+class OneLineParser(argparse.ArgumentParser):
+    """An argument parser whose refusals are one line on stderr, exit status 2, and which
+    takes option values that start with a minus sign (``--thresholds -1,1``)."""
+
+    def _takes_value(self, token: str) -> bool:
+        """Whether the long option ``token`` (or the one it abbreviates) takes a value."""
+        valued = {s: a.nargs != 0 for a in self._actions for s in a.option_strings
+                  if s.startswith("--")}
+        if token in valued:
+            return valued[token]
+        hits = [o for o in valued if o.startswith(token)] if self.allow_abbrev else []
+        return len(hits) == 1 and valued[hits[0]]
+
+    def join_negative_values(self, args: Sequence[str]) -> list[str]:
+        """``--opt -1,1`` as ``--opt=-1,1``, so argparse does not read the value as an
+        option; everything after ``--`` is left alone."""
+        out: list[str] = []
+        i = 0
+        while i < len(args):
+            tok = args[i]
+            if tok == "--":
+                out += args[i:]
+                break
+            if (tok.startswith("--") and "=" not in tok and i + 1 < len(args)
+                    and _NEGATIVE_VALUE.match(args[i + 1]) and self._takes_value(tok)):
+                out.append(f"{tok}={args[i + 1]}")
+                i += 2
+                continue
+            out.append(tok)
+            i += 1
+        return out
+
+    def parse_known_args(self, args: Sequence[str] | None = None,
+                         namespace: argparse.Namespace | None = None) -> Any:
+        args = sys.argv[1:] if args is None else args
+        return super().parse_known_args(self.join_negative_values(list(args)), namespace)
+
+    def error(self, message: str) -> NoReturn:
+        self.exit(2, f"trueslope: {one_line(message)} (see '{self.prog} -h')\n")
+
+
+def build_parser() -> OneLineParser:
+    p = OneLineParser(
         prog="trueslope analyze",
         description="Measure how straight the ramps of a sawtooth capture are.")
     p.add_argument("files", nargs="+", metavar="FILE", help="capture file(s): CSV/text, .npy, .wav")
@@ -28,8 +90,12 @@ def build_parser() -> argparse.ArgumentParser:
                    help="explicit fit window in seconds from the ramp start, e.g. 20u,480u")
     p.add_argument("--sample-interval", metavar="S",
                    help="sample interval when the file has no time column, e.g. 2u or 2e-6")
-    p.add_argument("--json", action="store_true", help="print JSON (one document per file, a list for several)")
+    p.add_argument("--json", action="store_true",
+                   help="print JSON (one document for one file; for several, a list with an "
+                        "error entry in place of each refused file)")
     p.add_argument("--cycles-csv", metavar="OUT", help="write the per-cycle figures to this CSV file")
+    p.add_argument("--force", action="store_true",
+                   help="let --cycles-csv replace an existing file (never a capture)")
     g = p.add_argument_group("circuit context (enables the self-check)")
     g.add_argument("--capacitance", help="timing capacitance, e.g. 47n")
     g.add_argument("--current", help="charging current, e.g. 1.2m")
@@ -38,7 +104,7 @@ def build_parser() -> argparse.ArgumentParser:
     g.add_argument("--probe", help="probe loading as R,C, e.g. 10M,12p")
     g.add_argument("--tolerance", help="tolerance of the expected figures, e.g. 10%%")
     g.add_argument("--thresholds", metavar="LOW,HIGH",
-                   help="the comparator's reset and trip levels, e.g. 0.05,4 "
+                   help="the comparator's reset and trip levels, e.g. 0.05,4 or -1,1 "
                         "(default: the measured start and end levels)")
     return p
 
@@ -49,6 +115,15 @@ OPTION_OF_FIELD = {"capacitance": "--capacitance", "current": "--current",
                    "probe": "--probe", "tolerance": "--tolerance", "thresholds": "--thresholds",
                    "trim": "--trim", "window": "--window", "sample_interval": "--sample-interval",
                    "phase_bins": "phase bins"}
+
+#: Figures that must be finite for a measurement to be reported.
+HEADLINE_FIGURES = ("slope_v_per_s", "frequency_hz", "period_s", "nonlinearity_pct",
+                    "start_v", "end_v", "amplitude_v")
+
+
+def one_line(text: str) -> str:
+    """Text with its line breaks (and runs of white space) made single spaces."""
+    return " ".join(str(text).split())
 
 
 def error_line(exc: TrueslopeError) -> str:
@@ -98,45 +173,238 @@ def _settings(args: argparse.Namespace) -> tuple[Settings, float | None]:
     return Settings(**kw), dt
 
 
+# -- one file -----------------------------------------------------------------------------
+
+@dataclasses.dataclass(frozen=True)
+class Failure:
+    """A refused file: the file as typed, the one-line reason, the error's class name."""
+
+    file: str
+    error: str
+    error_type: str
+
+    def to_dict(self) -> dict[str, str]:
+        return {"file": self.file, "error": self.error, "error_type": self.error_type}
+
+
+def _channel_name(capture: Any, key: str | int | None) -> str | None:
+    """The exact name of the channel a typed key means; only ASCII digits are an index."""
+    if key is None:
+        return None
+    if isinstance(key, str) and key not in capture.channels and key.strip().isdigit() \
+            and not key.strip().isascii():
+        # Digits of other scripts are a name, never an index.
+        raise ChannelNotFoundError(f"no channel named {key!r}; the capture has: "
+                                   f"{', '.join(capture.channel_names)}", capture.source)
+    return capture.channel(key)[0]
+
+
+def _check_finite(a: Any) -> None:
+    values = {k: getattr(a.figures, k) for k in HEADLINE_FIGURES}
+    values["low_level_v"] = a.segmentation.levels.low_v
+    values["high_level_v"] = a.segmentation.levels.high_v
+    bad = [f"{k}={v}" for k, v in values.items()
+           if not (isinstance(v, (int, float)) and math.isfinite(v))]
+    if bad:
+        raise AnalysisError(f"{Path(a.source).name}: the figures are not finite: {', '.join(bad)}")
+
+
+def _named(file: str, message: str) -> str:
+    message = one_line(message)
+    if Path(file).name in message or file in message:
+        return message
+    return f"{file}: {message}"
+
+
+def measure(file: str, settings: Settings, dt: float | None, as_json: bool
+            ) -> tuple[Any, Any] | Failure:
+    """Read and measure one file: ``(analysis, its JSON document or terminal text)``, or
+    the :class:`Failure` that refuses it."""
+    try:
+        from .io import load_capture
+        capture = load_capture(file, sample_interval_s=dt)
+        # Channels are checked before the analysis modules are imported: a quick refusal.
+        settings = dataclasses.replace(
+            settings, channel=_channel_name(capture, settings.channel),
+            sync_channel=_channel_name(capture, settings.sync_channel))
+        from .analysis import analyse
+        from .report import analysis_document, summary_text
+        a = analyse(capture, settings)
+        _check_finite(a)
+        if as_json:
+            doc = analysis_document(a)
+            json.dumps(doc, allow_nan=False)  # refuse here what could not be printed
+            return a, doc
+        return a, summary_text(a)
+    except TrueslopeError as exc:
+        return Failure(file, _named(file, error_line(exc)), type(exc).__name__)
+    except OSError as exc:
+        reason = exc.strerror or str(exc)
+        return Failure(file, _named(file, f"cannot read {exc.filename or file}: {reason}"),
+                       type(exc).__name__)
+    except MemoryError as exc:
+        return Failure(file, _named(file, "not enough memory to measure it"), type(exc).__name__)
+    except Exception as exc:  # a bug met on this input: refuse the file, keep the batch going
+        return Failure(file, _named(file, f"unexpected failure, please report it "
+                                          f"({type(exc).__name__}: {exc})"), type(exc).__name__)
+
+
+# -- the output file ----------------------------------------------------------------------
+
+def check_output(out: Path, captures: Sequence[str], force: bool) -> None:
+    """Refuse an output that is one of the captures (the same path, a symbolic link to it or
+    a hard link: same device and inode), a folder, a missing folder's file, or an existing
+    file without ``force``."""
+    try:
+        out_id = os.stat(out)
+    except OSError:
+        out_id = None
+    for f in captures:
+        try:
+            same = Path(f).resolve() == out.resolve()
+            if not same and out_id is not None:
+                st = os.stat(f)
+                same = (st.st_dev, st.st_ino) == (out_id.st_dev, out_id.st_ino)
+        except (OSError, RuntimeError):
+            continue
+        if same:
+            raise Refusal(f"--cycles-csv: {out} is the capture {f}; choose another name")
+    if out.is_dir():
+        raise Refusal(f"--cycles-csv: {out} is a folder; name a file")
+    if not out.parent.is_dir():
+        raise Refusal(f"--cycles-csv: cannot write {out}: the folder {out.parent} does not exist")
+    if os.path.lexists(out) and not force:
+        raise Refusal(f"--cycles-csv: {out} already exists; pass --force to replace it")
+
+
+def write_atomic(out: Path, text: str, *, replace: bool) -> None:
+    """Write ``text`` (UTF-8) to ``out`` all at once: a temporary file in the same folder,
+    flushed to disk, then renamed over ``out`` (``replace``) or linked to a new name only,
+    so a reader never sees half a file and an existing file is never half overwritten."""
+    folder = out.parent
+    fd, tmp = tempfile.mkstemp(prefix=f".{out.name[:64]}.", suffix=".part", dir=folder)
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8", errors="backslashreplace", newline="") as fh:
+            fh.write(text)
+            fh.flush()
+            os.fsync(fh.fileno())
+        umask = os.umask(0o022)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)
+        if replace:
+            os.replace(tmp, out)
+        else:
+            try:
+                os.link(tmp, out)  # fails if out appeared meanwhile: never over a file
+            except FileExistsError:
+                raise Refusal(f"--cycles-csv: {out} already exists; pass --force to replace it")
+            except OSError as exc:
+                if exc.errno not in (errno.EPERM, errno.ENOTSUP, errno.EOPNOTSUPP, errno.EMLINK):
+                    raise
+                if os.path.lexists(out):  # a folder without hard links
+                    raise Refusal(f"--cycles-csv: {out} already exists; pass --force to replace it")
+                os.replace(tmp, out)
+        try:
+            dfd = os.open(folder, os.O_RDONLY)
+        except OSError:
+            return
+        try:
+            os.fsync(dfd)
+        except OSError:
+            pass
+        finally:
+            os.close(dfd)
+    finally:
+        if os.path.lexists(tmp):
+            os.unlink(tmp)
+
+
+# -- the command --------------------------------------------------------------------------
+
+@contextmanager
+def quiet_numerics() -> Iterator[None]:
+    """No numpy floating-point warnings and no Python warnings reach stderr: the
+    measurement's own warnings are part of its report."""
+    import numpy as np
+    with np.errstate(all="ignore"), warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        yield
+
+
+def _refuse(line: str) -> None:
+    print(f"trueslope: {one_line(line)}", file=sys.stderr)
+
+
+def _emit(text: str) -> None:
+    try:
+        print(text)
+    except BrokenPipeError:  # the reader went away (| head): nothing more to say
+        pass
+
+
 def main(argv: list[str] | None = None) -> int:
     """Run the terminal analysis; returns the exit status."""
-    args = build_parser().parse_args(argv)
-    from .analysis import analyse_file
-    from .report import cycles_csv, summary_text, to_json
+    try:
+        args = build_parser().parse_args(argv)
+    except SystemExit as exc:  # -h, or a refusal already printed on one line
+        return exc.code if isinstance(exc.code, int) else 2
+    with quiet_numerics():
+        return _run(args)
+
+
+def _run(args: argparse.Namespace) -> int:
     try:
         settings, dt = _settings(args)
-        results = []
-        for f in args.files:
-            results.append(analyse_file(f, settings, sample_interval_s=dt))
     except TrueslopeError as exc:
-        print(f"trueslope: {error_line(exc)}", file=sys.stderr)
+        _refuse(error_line(exc))
         return 2
-    except OSError as exc:
-        print(f"trueslope: cannot read {exc.filename or ''}: {exc.strerror or exc}", file=sys.stderr)
-        return 2
-    if args.cycles_csv:
-        out = Path(args.cycles_csv)
-        inputs = {Path(f).resolve() for f in args.files}
-        if out.resolve() in inputs:
-            print("trueslope: --cycles-csv would overwrite a capture file; choose another name",
-                  file=sys.stderr)
-            return 2
+    out = Path(args.cycles_csv) if args.cycles_csv else None
+    if out is not None:
         try:
-            if len(results) == 1:
-                out.write_text(cycles_csv(results[0]), encoding="utf-8")
-            else:
-                text = []
-                for i, r in enumerate(results):
-                    body = cycles_csv(r).splitlines()
-                    if i == 0:
-                        text.append("file," + body[0])
-                    text += [f"{Path(r.source).name},{row}" for row in body[1:]]
-                out.write_text("\n".join(text) + "\n", encoding="utf-8")
-        except OSError as exc:
-            print(f"trueslope: cannot write {out}: {exc.strerror or exc}", file=sys.stderr)
+            check_output(out, args.files, args.force)
+        except Refusal as exc:
+            _refuse(str(exc))
             return 2
+    outcomes = []
+    for f in args.files:
+        outcome = measure(f, settings, dt, args.json)
+        if isinstance(outcome, Failure):
+            _refuse(outcome.error)
+        outcomes.append(outcome)
+    good = [o for o in outcomes if not isinstance(o, Failure)]
+    status = 0 if len(good) == len(outcomes) else 2
+    if out is not None and good:
+        from .report.export import batch_cycles_csv, cycles_csv
+        analyses = [a for a, _ in good]
+        text = cycles_csv(analyses[0]) if len(args.files) == 1 else batch_cycles_csv(analyses)
+        try:
+            write_atomic(out, text, replace=args.force)
+        except Refusal as exc:
+            _refuse(str(exc))
+            status = 2
+        except OSError as exc:
+            _refuse(f"--cycles-csv: cannot write {out}: {exc.strerror or exc}")
+            status = 2
     if args.json:
-        print(to_json(results[0] if len(results) == 1 else results))
-    else:
-        print("\n\n".join(summary_text(r) for r in results))
-    return 0
+        if len(args.files) == 1:
+            if good:
+                _emit(json.dumps(good[0][1], indent=2, allow_nan=False))
+        else:
+            _emit(json.dumps([o.to_dict() if isinstance(o, Failure) else o[1] for o in outcomes],
+                             indent=2, allow_nan=False))
+    elif good:
+        _emit("\n\n".join(text for _, text in good))
+    return status
+
+
+def leave(status: int) -> NoReturn:
+    """End the process once everything is written: flush stdout and stderr, then leave
+    at once. Skipping the interpreter's shutdown keeps the worker threads that native
+    libraries (the CSV reader's pool) may still hold from aborting the process after the
+    output is complete."""
+    for stream in (sys.stdout, sys.stderr):
+        try:
+            stream.flush()
+        except (OSError, ValueError):
+            pass
+    os._exit(status)

@@ -11,6 +11,8 @@ from __future__ import annotations
 import csv
 import io
 import json
+import re
+from pathlib import Path
 from typing import Any, Iterable
 
 from ..jsonable import plain
@@ -116,15 +118,20 @@ CYCLE_COLUMNS = [
 ]
 
 
+#: A cell that is a plain number (what a spreadsheet reads as a number, never a formula).
+_NUMBER = re.compile(r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?")
+#: First characters that make a spreadsheet run a cell as a formula (or a DDE command).
+_FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
+
+
 def safe_cell(value: Any) -> Any:
-    """A CSV cell a spreadsheet will not run: text starting with = + - @ (or a tab or
-    carriage return) gets a leading apostrophe; numbers pass unchanged."""
-    if isinstance(value, str) and value[:1] in ("=", "+", "-", "@", "\t", "\r"):
-        try:
-            float(value)
-            return value
-        except ValueError:
-            return "'" + value
+    """A CSV cell a spreadsheet will not run as a formula.
+
+    Text starting with = + - @, a tab or a carriage return gets a leading apostrophe,
+    unless it is a plain number such as ``-1.5e-3``; numbers (and booleans) pass unchanged.
+    """
+    if isinstance(value, str) and value[:1] in _FORMULA_START and not _NUMBER.fullmatch(value):
+        return "'" + value
     return value
 
 
@@ -136,27 +143,37 @@ def cycle_row(c: CycleFigures) -> list[Any]:
     return [d[k] for k in CYCLE_COLUMNS]
 
 
-def cycles_csv(a: Analysis) -> str:
-    """Per-cycle figures as CSV text (SI units in the column names)."""
+def _csv_text(header: list[str], rows: Iterable[list[Any]]) -> str:
+    """Rows as CSV text through the csv module, every cell neutralised."""
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
-    w.writerow(CYCLE_COLUMNS)
-    for c in a.cycles:
-        w.writerow(cycle_row(c))
+    w.writerow([safe_cell(h) for h in header])
+    for row in rows:
+        w.writerow([safe_cell(c) for c in row])
     return buf.getvalue()
+
+
+def cycles_csv(a: Analysis) -> str:
+    """Per-cycle figures as CSV text (SI units in the column names)."""
+    return _csv_text(CYCLE_COLUMNS, (cycle_row(c) for c in a.cycles))
+
+
+def batch_cycles_csv(analyses: Iterable[Analysis]) -> str:
+    """Per-cycle figures of several captures as one CSV table: the column ``file`` (the
+    capture's file name) first, then :data:`CYCLE_COLUMNS`."""
+    return _csv_text(["file"] + CYCLE_COLUMNS,
+                     ([Path(a.source).name] + cycle_row(c) for a in analyses for c in a.cycles))
 
 
 def figures_csv(a: Analysis) -> str:
     """Summary figures as two-column CSV text: figure, value (SI)."""
-    buf = io.StringIO()
-    w = csv.writer(buf, lineterminator="\n")
-    w.writerow(["figure", "value"])
+    rows = []
     for k, v in analysis_document(a).items():
         if k in ("cycles", "diagnosis", "context_check", "metadata", "warnings",
                  "warning_codes", "settings"):
             continue
         if isinstance(v, list):
             v = " ".join("" if x is None else repr(x) for x in v)
-        w.writerow([k, safe_cell("" if v is None else v)])
-    w.writerow(["diagnosis_signature", a.diagnosis.signature])
-    return buf.getvalue()
+        rows.append([k, "" if v is None else v])
+    rows.append(["diagnosis_signature", a.diagnosis.signature])
+    return _csv_text(["figure", "value"], rows)
