@@ -143,6 +143,27 @@ class LimitsError(SettingsError):
         super().__init__(message, field)
 
 
+class OutputError(TrueslopeError):
+    """An output file could not be written; the message names it."""
+
+
+class OutputExistsError(OutputError, FileExistsError):
+    """The output file exists and overwriting it was not asked for."""
+
+
+class OutputIsInputError(OutputError, ValueError):
+    """The output would land on one of the input files."""
+
+
+class SessionError(TrueslopeError, ValueError):
+    """A session file cannot be read: ``path`` the file, ``key`` where in it (or None)."""
+
+    def __init__(self, message: str, path: str | Path, key: str | None = None) -> None:
+        self.message, self.path, self.key = message, str(path), key
+        where = Path(path).name + (f": {key}" if key else "")
+        super().__init__(f"{where}: {message}")
+
+
 class Cancelled(TrueslopeError):
     """The caller's cancel flag was raised; the work stopped cleanly."""
 

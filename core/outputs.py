@@ -17,19 +17,9 @@ import tempfile
 from pathlib import Path
 from typing import Iterable
 
-from .errors import TrueslopeError
+from .errors import OutputError, OutputExistsError, OutputIsInputError
 
-
-class OutputError(TrueslopeError):
-    """An output file could not be written; the message names it."""
-
-
-class OutputExistsError(OutputError, FileExistsError):
-    """The output file exists and overwriting it was not asked for."""
-
-
-class OutputIsInputError(OutputError, ValueError):
-    """The output would land on one of the input files."""
+__all__ = ["OutputError", "OutputExistsError", "OutputIsInputError", "write_text_atomic"]
 
 
 def _same_file(a: Path, b: Path) -> bool:

@@ -23,7 +23,7 @@ from pathlib import Path, PurePosixPath
 from typing import Any, Callable
 
 from .circuit import CircuitContext
-from .errors import SettingsError, TrueslopeError
+from .errors import SessionError, SettingsError
 from .jsonable import ToDict
 from .outputs import write_text_atomic
 from .settings import DEFAULT_TRIM_FRACTION, Settings
@@ -34,15 +34,6 @@ SESSION_VERSION = 1
 MAX_SESSION_BYTES = 16 * 1024 * 1024
 _SHA256 = re.compile(r"[0-9a-f]{64}")
 _CIRCUIT_KEYS = tuple(f.name for f in dataclasses.fields(CircuitContext))
-
-
-class SessionError(TrueslopeError, ValueError):
-    """A session file cannot be read: ``path`` the file, ``key`` where in it (or None)."""
-
-    def __init__(self, message: str, path: str | Path, key: str | None = None) -> None:
-        self.message, self.path, self.key = message, str(path), key
-        where = Path(path).name + (f": {key}" if key else "")
-        super().__init__(f"{where}: {message}")
 
 
 @dataclass(frozen=True)
