@@ -145,6 +145,19 @@ def trace_for(capture: Capture, channel: str) -> TraceData:
     return TraceData(capture.time_s(), v, bool(np.isfinite(v).all()))
 
 
+def _raw_trace(capture: Capture, channel: str | int | None) -> TraceData | None:
+    """The asked-for channel of a capture that could not be measured, else its first,
+    so the window can show what was read."""
+    for ch in (channel, 0):
+        if ch is None:
+            continue
+        try:
+            return trace_for(capture, capture.channel(ch)[0])
+        except (ChannelNotFoundError, IndexError, ValueError):
+            continue
+    return None
+
+
 #: Errors raised after the file was read: the capture is fine, this channel
 #: (or these settings) cannot be measured.
 _MEASURE_ERRORS = (AnalysisError, SettingsError, ChannelNotFoundError)
@@ -172,7 +185,8 @@ def run_open(req: OpenRequest, progress: ProgressFn, cancel: CancelFn) -> JobRes
         # read it again (only in this case) so the window can offer the others.
         from trueslope.core.io import load_capture
         capture = load_capture(req.path, sample_interval_s=req.sample_interval_s, cancel=cancel)
-        return JobResult(capture, None, None, exc, time.perf_counter() - t0)
+        return JobResult(capture, None, _raw_trace(capture, req.settings.channel), exc,
+                         time.perf_counter() - t0)
     return _answer(capture, analysis, progress, t0)
 
 

@@ -12,6 +12,22 @@ from pathlib import Path
 
 #: Size of the window in screenshot mode, pixels: wide enough for every panel.
 SCREENSHOT_SIZE = (1600, 1000)
+#: Smallest and largest window a ``--size`` may ask for, pixels.
+SIZE_LIMITS = ((640, 400), (7680, 4320))
+
+
+def parse_size(text: str) -> tuple[int, int]:
+    """``"1280x720"`` -> ``(1280, 720)``; raises ``ValueError`` with a one-line reason."""
+    parts = text.lower().replace("×", "x").split("x")
+    try:
+        w, h = (int(p.strip()) for p in parts)
+    except ValueError:
+        raise ValueError(f"give the size as WIDTHxHEIGHT in pixels, e.g. 1280x720, "
+                         f"not {text!r}") from None
+    (w0, h0), (w1, h1) = SIZE_LIMITS
+    if not (w0 <= w <= w1 and h0 <= h <= h1):
+        raise ValueError(f"{w}x{h} is outside {w0}x{h0} to {w1}x{h1}")
+    return w, h
 #: Longest wait for the analysis in screenshot mode, milliseconds.
 SCREENSHOT_TIMEOUT_MS = 300_000
 
@@ -42,7 +58,8 @@ def make_app(argv: list[str] | None = None):
 
 def launch(path: str | None = None, channel: str | None = None, sync_channel: str | None = None,
            trim: float | None = None, sample_interval: str | None = None,
-           screenshot: str | None = None) -> int:
+           screenshot: str | None = None, size: str | None = None,
+           circuit: dict[str, str | None] | None = None) -> int:
     """Open the bench window, optionally on a capture.
 
     Parameters
@@ -58,6 +75,11 @@ def launch(path: str | None = None, channel: str | None = None, sync_channel: st
         Sample interval for files without a time column, e.g. ``"2u"`` (seconds).
     screenshot : str, optional
         Render the window with the analysis finished, save it to this PNG and exit.
+    size : str, optional
+        Window size as ``WIDTHxHEIGHT`` pixels (screenshots default to 1600x1000).
+    circuit : dict, optional
+        Circuit values for ``path``'s form, by keyword of
+        :func:`trueslope.core.circuit.parse_context` (text as typed, e.g. ``"47n"``).
 
     Returns
     -------
@@ -70,6 +92,13 @@ def launch(path: str | None = None, channel: str | None = None, sync_channel: st
     from trueslope.core.settings import Settings
 
     interval_s = None
+    window_size = SCREENSHOT_SIZE if screenshot else None
+    if size is not None:
+        try:
+            window_size = parse_size(size)
+        except ValueError as exc:
+            print(f"trueslope open: --size: {exc}", file=sys.stderr)
+            return 2
     try:
         if sample_interval is not None:
             from trueslope.core.units import parse_si
@@ -81,6 +110,10 @@ def launch(path: str | None = None, channel: str | None = None, sync_channel: st
                 raise SettingsError(f"must be positive, got {sample_interval}", "sample_interval")
         if trim is not None:
             Settings(trim_fraction=trim)
+        circuit = {k: v for k, v in (circuit or {}).items() if v}
+        if circuit:
+            from trueslope.core.circuit import parse_context
+            parse_context(**circuit)
     except TrueslopeError as exc:
         # A terminal message: it names the command line's option, as `analyze` does.
         print(f"trueslope open: {error_line(exc)}", file=sys.stderr)
@@ -107,10 +140,13 @@ def launch(path: str | None = None, channel: str | None = None, sync_channel: st
         win.trim_box.setValue(100.0 * trim)
         win.trim_box.blockSignals(False)
         win.settings = win.settings.with_(trim_fraction=trim)
-    if screenshot:
-        win.resize(*SCREENSHOT_SIZE)
+    if window_size is not None:
+        win.resize(*window_size)
     win.show()
     if path:
+        if circuit:
+            win.circuits.remember(path, circuit)
+            win.tabs.setCurrentWidget(win.findings.check_page)
         win.open_file(path, channel=channel, sync_channel=sync_channel)
     if screenshot:
         return _screenshot(app, win, screenshot, bool(path))

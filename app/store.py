@@ -1,4 +1,5 @@
-"""What the window remembers between runs: trim fraction, last folder, geometry, recent files.
+"""What the window remembers between runs: trim fraction, last folder, geometry, recent files,
+and the circuit values given for each capture.
 
 Backed by :class:`QtCore.QSettings` in INI format under our own organisation
 name. Tests and the screenshot mode pass their own store (a temporary INI
@@ -8,6 +9,8 @@ user's settings.
 
 from __future__ import annotations
 
+import hashlib
+import json
 import os
 from pathlib import Path
 
@@ -18,6 +21,15 @@ from trueslope.core.settings import DEFAULT_TRIM_FRACTION, MAX_TRIM_FRACTION
 ORGANISATION = "trueslope-bench"
 APPLICATION = "trueslope"
 MAX_RECENT = 8
+#: Keys of the circuit form a capture's values are kept under.
+CIRCUIT_KEYS = ("capacitance", "current", "set_resistor", "reference", "probe", "tolerance")
+
+
+def capture_key(path: str | os.PathLike[str]) -> str:
+    """The key a capture's values are kept under: its resolved path, as a hash
+    (a path's slashes would nest QSettings groups)."""
+    resolved = str(Path(path).resolve())
+    return hashlib.sha256(resolved.encode("utf-8", "surrogatepass")).hexdigest()[:24]
 
 
 class Store:
@@ -113,3 +125,81 @@ class Store:
 
     def set_geometry(self, key: str, data: QtCore.QByteArray) -> None:
         self._set(f"window/{key}", data)
+
+    # -- circuit values, per capture ----------------------------------------------
+
+    def circuit(self, path: str | os.PathLike[str]) -> dict[str, str | None] | None:
+        """The circuit form's texts kept for the capture at ``path`` (None if never given)."""
+        raw = self._s.value(f"circuits/{capture_key(path)}")
+        try:
+            doc = json.loads(str(raw)) if raw else None
+        except ValueError:
+            return None
+        if not isinstance(doc, dict) or not isinstance(doc.get("values"), dict):
+            return None
+        values = doc["values"]
+        return {k: (str(values[k]) if values.get(k) else None) for k in CIRCUIT_KEYS}
+
+    def set_circuit(self, path: str | os.PathLike[str], texts: dict[str, str | None]) -> None:
+        """Keep the circuit form's texts for the capture at ``path`` (all empty: forget them)."""
+        key = f"circuits/{capture_key(path)}"
+        values = {k: texts.get(k) for k in CIRCUIT_KEYS if texts.get(k)}
+        if not values:
+            if self._writable:
+                self._s.remove(key)
+            return
+        self._set(key, json.dumps({"path": str(Path(path).resolve()), "values": values}))
+
+
+class CircuitMemory:
+    """The circuit values of each capture opened in this session, backed by a :class:`Store`.
+
+    Values belong to the capture they were given for: :meth:`texts_for` gives
+    a file's own values (kept in memory, else read from the store), never
+    another file's; :attr:`previous` names the last other capture that had
+    values, for the form's explicit "use the last capture's circuit".
+    """
+
+    def __init__(self, store: Store) -> None:
+        self._store = store
+        self._texts: dict[str, dict[str, str | None]] = {}
+        self._names: dict[str, str] = {}
+        self._current: str | None = None
+        self.previous: tuple[str, dict[str, str | None]] | None = None
+
+    def texts_for(self, path: str) -> dict[str, str | None]:
+        """The form's texts for the capture at ``path`` (all None if never given)."""
+        key = capture_key(path)
+        if key not in self._texts:
+            self._texts[key] = self._store.circuit(path) or {k: None for k in CIRCUIT_KEYS}
+            self._names[key] = Path(path).name
+        return dict(self._texts[key])
+
+    def context_for(self, path: str):
+        """The :class:`~trueslope.core.circuit.CircuitContext` kept for ``path`` (None if
+        none, or if the kept values no longer parse)."""
+        from trueslope.core.circuit import parse_context
+        from trueslope.core.errors import SettingsError
+
+        try:
+            return parse_context(**self.texts_for(path))
+        except SettingsError:
+            return None
+
+    def switch_to(self, path: str) -> None:
+        """``path`` is now the open capture; the one before becomes :attr:`previous`
+        if it had values."""
+        key = capture_key(path)
+        if self._current is not None and self._current != key:
+            texts = self._texts.get(self._current, {})
+            if any(texts.values()):
+                self.previous = (self._names.get(self._current, ""), dict(texts))
+        self._current = key
+        self.texts_for(path)
+
+    def remember(self, path: str, texts: dict[str, str | None]) -> None:
+        """Keep ``texts`` as the values of the capture at ``path`` (memory and store)."""
+        key = capture_key(path)
+        self._texts[key] = {k: texts.get(k) for k in CIRCUIT_KEYS}
+        self._names[key] = Path(path).name
+        self._store.set_circuit(path, texts)

@@ -31,20 +31,25 @@ RESIDUAL_SMOOTH = "#6b2d5c"
 NOISE_BAND = (90, 120, 160, 45)
 ZERO_LINE = (58, 63, 71, 120)
 
-#: Verdict colours of the self-check (text on a light chip).
+#: Colours of the self-check's verdicts: one for every verdict that agrees with
+#: the stated parts (``trueslope.core.selfcheck.AGREES``), one for every verdict
+#: against them (``DISAGREES``), and a grey for the rest ("not checked").
+VERDICT_AGREES = "#2f6b3a"
+VERDICT_DISAGREES = "#9b2c22"
+VERDICT_DEFAULT = "#6a6f78"
 VERDICT_COLOURS = {
-    "within tolerance": "#2f6b3a",
-    "outside": "#9b2c22",
-    "not checked": "#6a6f78",
+    "within tolerance": VERDICT_AGREES,
+    "outside": VERDICT_DISAGREES,
+    "not checked": VERDICT_DEFAULT,
 }
-VERDICT_DEFAULT = "#4a4f57"
 
 #: Message banner styles: (background, border, text).
 BANNER_ERROR = ("#f7e1dc", "#c9826f", "#5a1d12")
 BANNER_INFO = ("#f3ecd9", "#cdb67a", "#4b3b10")
 
-#: Outlying cycles in the cycle list.
+#: Outlying cycles in the cycle list; cycles left out by hand are greyed.
 OUTLIER_BACKGROUND = "#f5dcd3"
+EXCLUDED_TEXT = "#9a9ca1"
 
 STYLESHEET = """
 QMainWindow { background: #eeebe4; }
@@ -64,11 +69,23 @@ QLabel#headlineSub { color: #5b6270; }
 QLabel#signature { font-size: 15px; font-weight: 600; color: #2d3540; }
 QLabel#muted { color: #6a6f78; }
 QLabel#formError { color: #9b2c22; }
+QLabel#formNote { color: #6a6f78; }
+QLabel#staleMark { background: #fff3d6; border: 1px solid #c99a2e; border-radius: 3px;
+            color: #5a4310; padding: 3px 6px; font-weight: 600; }
+QLabel#cycleNote { color: #5b6270; }
 QFrame#welcome { background: #fbf8f2; border: 1px dashed #cbbf9f; border-radius: 6px; }
 QLabel#welcomeTitle { font-size: 22px; font-weight: 600; color: #39475a; }
 """
 
 
 def verdict_colour(verdict: str) -> str:
-    """Text colour for a self-check verdict word (unknown words get a neutral grey)."""
-    return VERDICT_COLOURS.get(str(verdict).strip().lower(), VERDICT_DEFAULT)
+    """Text colour of a self-check verdict: by whether the core counts it as agreeing
+    with the stated parts or against them; anything else a neutral grey."""
+    from trueslope.core.selfcheck import AGREES, DISAGREES
+
+    word = str(verdict).strip().lower()
+    if word in AGREES:
+        return VERDICT_AGREES
+    if word in DISAGREES:
+        return VERDICT_DISAGREES
+    return VERDICT_DEFAULT

@@ -2,12 +2,17 @@
 
 Layout (our own): a message banner across the top; on the left the trace
 view over the residual strip, with the cycle list beneath; on the right the
-figures panel over a tabbed pane holding the findings (diagnosis, self-check,
-circuit-context form) and the capture's metadata and import warnings.
+figures panel over a tabbed pane: the diagnosis, the self-check (the
+circuit-context form over it), and the capture's metadata and import warnings.
+
+The circuit values belong to the capture they were given for
+(:class:`~trueslope.app.store.CircuitMemory`): another file opens with an
+empty form unless the user copies the last capture's values over.
 
 All reading and measuring runs on :class:`~trueslope.app.jobs.JobRunner`;
 this class only builds requests, and draws the answers that are still
-current. A failed open or re-measure is shown in the banner and leaves what
+current. Cycle navigation, its shortcuts and drag and drop live in
+:class:`~trueslope.app.navigation.NavigationMixin`. A failed open or re-measure is shown in the banner and leaves what
 was on screen untouched. The actions, menus, toolbar, exports and help live
 in :class:`~trueslope.app.commands.CommandsMixin`.
 """
@@ -20,16 +25,20 @@ from typing import TYPE_CHECKING, Any, Callable
 from PySide6 import QtCore, QtGui, QtWidgets
 
 from trueslope.core.errors import TrueslopeError
-from trueslope.core.settings import Settings
+from trueslope.core.settings import MAX_TRIM_FRACTION, Settings
 
 from . import theme
 from .banner import MessageBanner, describe_error
 from .commands import CommandsMixin
+from .fields import field_label
 from .jobs import (AnalyseRequest, JobResult, JobRunner, OpenRequest, Request, TraceData,
                    run_analyse, run_open)
+from .circuits import CircuitMixin
+from .navigation import NavigationMixin
 from .panels import CapturePanel, CycleTable, FiguresPanel, FindingsPanel
+from .panels.cycles import CYCLE_NOTE
 from .plots import PlotArea, cycle_view
-from .store import Store
+from .store import CircuitMemory, Store
 from .welcome import Welcome
 
 if TYPE_CHECKING:
@@ -38,7 +47,7 @@ if TYPE_CHECKING:
     from trueslope.core.results import Analysis
 
 
-class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
+class MainWindow(CircuitMixin, NavigationMixin, CommandsMixin, QtWidgets.QMainWindow):
     """The trueslope bench window.
 
     Parameters
@@ -63,6 +72,7 @@ class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
     def __init__(self, store: Store | None = None) -> None:
         super().__init__()
         self.store = store or Store()
+        self.circuits = CircuitMemory(self.store)
         self.runner = JobRunner(self)
         self.capture: Capture | None = None
         self.analysis: Analysis | None = None
@@ -73,7 +83,7 @@ class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
         self._pending: JobResult | None = None
         self._pending_path: str | None = None
 
-        self.setWindowTitle("trueslope")
+        self.setWindowTitle("")  # the platform shows the application's name
         self.setAcceptDrops(True)
         self.setStyleSheet(theme.STYLESHEET)
         self._build_widgets()
@@ -99,6 +109,10 @@ class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
         cl = QtWidgets.QVBoxLayout(cycles_box)
         cl.setContentsMargins(4, 4, 4, 4)
         cl.addWidget(self.cycles)
+        self.cycle_note = QtWidgets.QLabel(CYCLE_NOTE)
+        self.cycle_note.setObjectName("cycleNote")
+        self.cycle_note.setWordWrap(True)
+        cl.addWidget(self.cycle_note)
         self.left = QtWidgets.QSplitter(QtCore.Qt.Orientation.Vertical)
         self.left.addWidget(self.stack)
         self.left.addWidget(cycles_box)
@@ -107,21 +121,20 @@ class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
         self.left.setChildrenCollapsible(False)
 
         self.figures = FiguresPanel()
-        fig_box = QtWidgets.QGroupBox("Figures")
-        fl = QtWidgets.QVBoxLayout(fig_box)
-        fl.setContentsMargins(6, 4, 6, 6)
-        fl.addWidget(self.figures)
-        self.findings = FindingsPanel()
+        self.findings = FindingsPanel(self)
         self.capture_panel = CapturePanel()
         self.tabs = QtWidgets.QTabWidget()
-        self.tabs.addTab(self.findings, "Findings")
+        self.tabs.addTab(self.figures, "Figures")
+        self.tabs.addTab(self.findings.diagnosis_page, "Diagnosis")
+        self.tabs.addTab(self.findings.check_page, "Self-check")
         self.tabs.addTab(self.capture_panel, "Capture")
-        self.right = QtWidgets.QSplitter(QtCore.Qt.Orientation.Vertical)
-        self.right.addWidget(fig_box)
-        self.right.addWidget(self.tabs)
-        self.right.setStretchFactor(0, 1)
-        self.right.setStretchFactor(1, 1)
-        self.right.setChildrenCollapsible(False)
+        # The headline stays in sight over the tabs; each tab gets the column's height.
+        self.right = QtWidgets.QWidget()
+        rl = QtWidgets.QVBoxLayout(self.right)
+        rl.setContentsMargins(0, 0, 0, 0)
+        rl.setSpacing(4)
+        rl.addWidget(self.figures.head)
+        rl.addWidget(self.tabs, 1)
 
         self.main_split = QtWidgets.QSplitter(QtCore.Qt.Orientation.Horizontal)
         self.main_split.addWidget(self.left)
@@ -149,6 +162,17 @@ class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
         self.plots.band_moved.connect(self._on_band_moved)
         self.cycles.cycle_chosen.connect(self.show_cycle)
         self.findings.form.context_changed.connect(self._on_context)
+        self.findings.form.stale_changed.connect(self._on_stale)
+        self.findings.form.copy_requested.connect(self._copy_last_circuit)
+        self.cycles.exclusion_requested.connect(self._on_exclusion)
+        # Typing 45 must not become 4 % silently: the box takes it, _on_trim clamps and says so.
+        self.trim_box.setMaximum(99.0)
+        # Short toolbar texts, so every command fits at 1280 px (the menus keep the long ones).
+        for act, short in ((self.act_open, "Open…"), (self.act_reset_window, "Reset window"),
+                           (self.act_prev, "◀ Cycle"), (self.act_next, "Cycle ▶"),
+                           (self.act_zoom_cycle, "Zoom cycle"), (self.act_zoom_all, "Zoom all"),
+                           (self.act_all_fits, "All fits")):
+            act.setIconText(short)
         self.channel_box.activated.connect(self._on_channel_picked)
         self.sync_box.activated.connect(self._on_channel_picked)
         self.trim_box.valueChanged.connect(self._on_trim)
@@ -159,15 +183,13 @@ class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
         geo = self.store.geometry("geometry")
         if geo is None or not self.restoreGeometry(geo):
             self.resize(1480, 920)
-        for key, split in (("split_main", self.main_split), ("split_left", self.left),
-                           ("split_right", self.right)):
+        for key, split in (("split_main", self.main_split), ("split_left", self.left)):
             state = self.store.geometry(key)
             if state is not None:
                 split.restoreState(state)
         if self.store.geometry("split_main") is None:
-            self.main_split.setSizes([930, 640])
-            self.left.setSizes([660, 170])
-            self.right.setSizes([360, 500])
+            self.main_split.setSizes([880, 690])
+            self.left.setSizes([600, 230])
         self.welcome.refresh(self.store.recent_files)
 
     def _show_welcome(self) -> None:
@@ -184,42 +206,16 @@ class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
                   sync_channel: str | int | None = None) -> None:
         """Read and measure ``path`` in the background; the current capture stays until it succeeds."""
         try:
+            # The file's own circuit values (none for a file never given any).
             settings = Settings(trim_fraction=self.trim_box.value() / 100.0, channel=channel,
-                                sync_channel=sync_channel, context=self.settings.context)
+                                sync_channel=sync_channel,
+                                context=self.circuits.context_for(str(path)))
         except TrueslopeError as exc:
             self._show_error(describe_error(exc))
             return
         req = OpenRequest(self.runner.new_id(), str(path), settings, self.sample_interval_s)
         self._status(f"Reading {Path(path).name}…")
         self.runner.submit(req, run_open)
-
-    # drag and drop ---------------------------------------------------------------------
-
-    @staticmethod
-    def _dropped_file(event: QtGui.QDropEvent | QtGui.QDragEnterEvent) -> str | None:
-        md = event.mimeData()
-        if md is None or not md.hasUrls():
-            return None
-        for url in md.urls():
-            if url.isLocalFile() and Path(url.toLocalFile()).is_file():
-                return url.toLocalFile()
-        return None
-
-    def dragEnterEvent(self, event: QtGui.QDragEnterEvent) -> None:  # noqa: N802
-        if self._dropped_file(event):
-            event.acceptProposedAction()
-        else:
-            event.ignore()
-
-    def dragMoveEvent(self, event: QtGui.QDragMoveEvent) -> None:  # noqa: N802
-        if self._dropped_file(event):  # type: ignore[arg-type]
-            event.acceptProposedAction()
-
-    def dropEvent(self, event: QtGui.QDropEvent) -> None:  # noqa: N802
-        path = self._dropped_file(event)
-        if path:
-            event.acceptProposedAction()
-            self.open_file(path)
 
     # -- re-measuring -----------------------------------------------------------------------
 
@@ -252,7 +248,19 @@ class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
         self.settings = self.settings.with_(context=context)
         self.reanalyse("circuit context edited", context=context)
 
+    def _on_exclusion(self, excluded: tuple[int, ...]) -> None:
+        n = len(excluded)
+        self.reanalyse(f"{n} cycle{'s' if n != 1 else ''} left out" if n else "all cycles in",
+                       excluded_cycles=tuple(excluded))
+
     def _on_trim(self, value_pct: float) -> None:
+        top = 100.0 * MAX_TRIM_FRACTION
+        if value_pct > top:
+            self.banner.show_message(
+                f"{field_label('trim')}: at most {top:g} % of each ramp can be trimmed at each "
+                f"end; {value_pct:g} % was set to {top:g} %.", kind="info")
+            self.trim_box.setValue(top)  # measures through this slot again
+            return
         self.store.trim_fraction = value_pct / 100.0
         self.reanalyse("trim changed", trim_fraction=value_pct / 100.0, window_s=None)
 
@@ -264,7 +272,10 @@ class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
         sync = self.sync_box.currentData()
         if ch is None:
             return
-        self.reanalyse("channel changed", channel=ch, sync_channel=sync, window_s=None)
+        if sync == ch:  # a channel cannot mark its own resets
+            sync = None
+        self.reanalyse("channel changed", channel=ch, sync_channel=sync, window_s=None,
+                       excluded_cycles=())
 
     def _choose_channel_for_pending(self) -> None:
         pend = self._pending
@@ -275,7 +286,10 @@ class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
             self, "Choose the ramp channel", f"Channel of {Path(pend.capture.source).name} to measure:",
             names, 0, False)
         if ok and name:
-            self.reanalyse("channel chosen", capture=pend.capture, channel=name, window_s=None)
+            path = self._pending_path or str(pend.capture.source)
+            self.reanalyse("channel chosen", capture=pend.capture, channel=name, window_s=None,
+                           sync_channel=None, excluded_cycles=(),
+                           context=self.circuits.context_for(path))
 
     # -- answers from the worker ---------------------------------------------------------------
 
@@ -307,14 +321,15 @@ class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
         self.settings = req.settings
         old_channel = self.analysis.channel if self.analysis is not None else None
         self._commit(result, new_capture or self.trace is None
-                     or result.analysis.channel != old_channel)
-        if self.banner.kind == "error":
+                     or result.analysis.channel != old_channel, new_capture)
+        # A new capture starts a new story: no message about the last one stays.
+        if new_capture or self.banner.kind == "error":
             self.banner.dismiss()
         self._status(f"{Path(self.capture.source).name}: measured in {result.elapsed_s:.2f} s"
                      + (f" ({req.reason})" if isinstance(req, AnalyseRequest) and req.reason else ""))
         self.analysis_shown.emit(result.analysis)
 
-    def _commit(self, result: JobResult, redraw_trace: bool) -> None:
+    def _commit(self, result: JobResult, redraw_trace: bool, new_capture: bool = False) -> None:
         a = result.analysis
         assert a is not None  # only measured answers are committed
         old = self.analysis
@@ -330,16 +345,27 @@ class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
         self.cycles.set_cycles(a.cycles)
         self.cycles.select_cycle(self.plots.shown)
         self.findings.set_analysis(a)
+        self._commit_circuit(a, new_capture)
         self.capture_panel.set_capture(result.capture, a)
         n_warn = len(a.warnings)
-        self.tabs.setTabText(1, f"Capture ({n_warn} warning{'s' if n_warn != 1 else ''})"
+        self.tabs.setTabText(self.tabs.indexOf(self.capture_panel), f"Capture ({n_warn} warning{'s' if n_warn != 1 else ''})"
                              if n_warn else "Capture")
         self._set_channel_boxes(result.capture)
         self._enable_analysis_actions(True)
         name = Path(result.capture.source).name
-        self.setWindowTitle(f"trueslope — {name} ({a.channel})")
+        self.setWindowTitle(f"{name} ({a.channel})")
         if fresh:
             self.plots.zoom_to_cycle()
+
+    def _set_channel_boxes(self, capture: Capture | None) -> None:
+        super()._set_channel_boxes(capture)
+        # "Resets from" never offers the measured channel itself.
+        if capture is not None and self.analysis is not None:
+            i = self.sync_box.findData(self.analysis.channel)
+            if i > 0:
+                self.sync_box.blockSignals(True)
+                self.sync_box.removeItem(i)
+                self.sync_box.blockSignals(False)
 
     @staticmethod
     def _first_cycle(a: Analysis) -> int:
@@ -363,6 +389,13 @@ class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
             if msg.startswith(name + ":"):
                 msg = msg[len(name) + 1:].strip()
             text = f"{name} was read but could not be measured: {msg.rstrip('.')}.{keep}"
+            if self.capture is None and result.trace is not None:
+                # Nothing else is open: show what was read, so the banner has a picture.
+                self.stack.setCurrentWidget(self.plots)
+                self.plots.reset()
+                self.plots.set_trace(result.trace)
+                self.plots.zoom_to_all()
+                self.setWindowTitle(f"{name} (not measured)")
             if n > 1:
                 self._show_error(text, "Choose channel…", self._choose_channel_for_pending)
             else:
@@ -412,24 +445,6 @@ class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
     def _status(self, text: str) -> None:
         self.status_label.setText(text)
 
-    # -- navigation ----------------------------------------------------------------------------
-
-    def show_cycle(self, i: int) -> None:
-        """Show cycle ``i``: fit, band and residual move to it; the view follows if it is off screen."""
-        if self.analysis is None:
-            return
-        before = self.plots.shown
-        self.plots.show_cycle(i)
-        self.cycles.select_cycle(self.plots.shown)
-        lo, hi = self.plots.x_range()
-        start, end = self.plots.cycle_span(self.plots.shown)
-        if start < lo or end > hi:
-            if hi - lo < 2.5 * (end - start):
-                self.plots.zoom_to_cycle()
-            else:
-                shift = start - self.plots.cycle_span(before)[0]
-                self.plots.trace_plot.setXRange(lo + shift, hi + shift, padding=0)
-
     # -- closing --------------------------------------------------------------------------------
 
     def closeEvent(self, event: QtGui.QCloseEvent) -> None:  # noqa: N802
@@ -437,6 +452,5 @@ class MainWindow(CommandsMixin, QtWidgets.QMainWindow):
         self.store.set_geometry("geometry", self.saveGeometry())
         self.store.set_geometry("split_main", self.main_split.saveState())
         self.store.set_geometry("split_left", self.left.saveState())
-        self.store.set_geometry("split_right", self.right.saveState())
         self.store.sync()
         super().closeEvent(event)

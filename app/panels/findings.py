@@ -1,4 +1,5 @@
-"""The findings panel: the diagnosis, its explanation and next checks, the self-check, and the context form.
+"""The findings: the diagnosis page (its line, explanation and next checks) and the
+self-check page (the circuit-context form over the self-check).
 
 It only reads a finished :class:`~trueslope.core.results.Analysis`. Every
 sentence comes from :mod:`trueslope.core.report` (the diagnosis line the
@@ -19,6 +20,7 @@ from trueslope.core.report.numbers import MISSING, pct, quantity
 from trueslope.core.report.prose import (explanation, likely_cause, next_checks,
                                          selfcheck_summary)
 from trueslope.core.report.summary import diagnosis_line
+from trueslope.core.selfcheck import DISAGREES
 
 from .. import theme
 from .context_form import ContextForm
@@ -28,8 +30,13 @@ if TYPE_CHECKING:
 
 #: What the self-check says before any circuit value is given.
 NO_CONTEXT = "Fill in the circuit context above to compare the circuit with the measurement."
-#: Columns of the self-check table.
-CHECK_COLUMNS = ("Check", "Expected", "Measured", "Off by", "Verdict")
+#: Columns of the self-check table; "Expected" says where its value comes from
+#: (``CheckItem.basis``: "predicted" by the parts, or the "stated probe").
+CHECK_COLUMNS = ("Check", "Expected (from)", "Measured", "Off by", "Verdict")
+#: The self-check's title, and the mark it carries while the form has changes not measured.
+CHECK_TITLE = "Self-check against the circuit"
+STALE_TEXT = ("Out of date: the circuit values above differ from the ones this self-check "
+              "was measured with. Apply them (or press Enter) or Revert.")
 
 
 def _pretty(code: str) -> str:
@@ -55,17 +62,29 @@ def _bullets(title: str, lines: list[str]) -> str:
     return f"{head}<ul style='margin-left:-20px'>{items}</ul>"
 
 
-class FindingsPanel(QtWidgets.QScrollArea):
-    """The diagnosis, its explanation and next checks, the self-check, and the context form."""
+def _page() -> tuple[QtWidgets.QScrollArea, QtWidgets.QVBoxLayout]:
+    page = QtWidgets.QScrollArea()
+    page.setWidgetResizable(True)
+    page.setFrameShape(QtWidgets.QFrame.Shape.NoFrame)
+    body = QtWidgets.QWidget()
+    lay = QtWidgets.QVBoxLayout(body)
+    lay.setContentsMargins(6, 4, 6, 6)
+    page.setWidget(body)
+    return page, lay
 
-    def __init__(self, parent: QtWidgets.QWidget | None = None) -> None:
+
+class FindingsPanel(QtCore.QObject):
+    """The diagnosis page and the self-check page (the window puts each on a tab).
+
+    Attributes
+    ----------
+    diagnosis_page, check_page : QScrollArea
+        The two pages.
+    """
+
+    def __init__(self, parent: QtCore.QObject | None = None) -> None:
         super().__init__(parent)
-        self.setWidgetResizable(True)
-        self.setFrameShape(QtWidgets.QFrame.Shape.NoFrame)
-        body = QtWidgets.QWidget()
-        lay = QtWidgets.QVBoxLayout(body)
-        lay.setContentsMargins(6, 4, 6, 6)
-
+        self.diagnosis_page, lay = _page()
         diag = QtWidgets.QGroupBox("Diagnosis")
         dl = QtWidgets.QVBoxLayout(diag)
         self.signature = _text_label("signature")
@@ -78,9 +97,18 @@ class FindingsPanel(QtWidgets.QScrollArea):
         for w in (self.signature, self.line, self.explanation, self.next_checks):
             dl.addWidget(w)
         lay.addWidget(diag)
+        lay.addStretch(1)
 
-        check = QtWidgets.QGroupBox("Self-check against the circuit")
+        self.check_page, lay = _page()
+        lay.setSpacing(4)
+        self.check_box = check = QtWidgets.QGroupBox(CHECK_TITLE)
         cl = QtWidgets.QVBoxLayout(check)
+        cl.setContentsMargins(6, 4, 6, 6)
+        self.stale_mark = QtWidgets.QLabel(STALE_TEXT)
+        self.stale_mark.setObjectName("staleMark")
+        self.stale_mark.setWordWrap(True)
+        self.stale_mark.hide()
+        cl.addWidget(self.stale_mark)
         self.check_summary = _text_label()
         self.check_summary.setText(NO_CONTEXT)
         self.check_table = QtWidgets.QTableWidget(0, len(CHECK_COLUMNS))
@@ -90,8 +118,11 @@ class FindingsPanel(QtWidgets.QScrollArea):
         self.check_table.setEditTriggers(QtWidgets.QAbstractItemView.EditTrigger.NoEditTriggers)
         self.check_table.setSelectionMode(QtWidgets.QAbstractItemView.SelectionMode.NoSelection)
         self.check_table.horizontalHeader().setStretchLastSection(True)
+        self.check_table.setWordWrap(True)
+        self.check_table.setHorizontalScrollBarPolicy(QtCore.Qt.ScrollBarPolicy.ScrollBarAlwaysOff)
         self.check_table.setVerticalScrollBarPolicy(QtCore.Qt.ScrollBarPolicy.ScrollBarAlwaysOff)
         self.check_table.hide()
+        self.check_table.installEventFilter(self)
         self.causes = QtWidgets.QLabel("")
         self.causes.setWordWrap(True)
         self.causes.setTextFormat(QtCore.Qt.TextFormat.RichText)
@@ -100,10 +131,19 @@ class FindingsPanel(QtWidgets.QScrollArea):
         cl.addWidget(self.check_table)
         cl.addWidget(self.causes)
         self.form = ContextForm()
+        self.form.stale_changed.connect(self.set_stale)
         lay.addWidget(self.form)
         lay.addWidget(check)
         lay.addStretch(1)
-        self.setWidget(body)
+
+    def set_stale(self, stale: bool) -> None:
+        """Mark the self-check as out of date (the form has changes not measured yet)."""
+        self.stale_mark.setVisible(stale)
+        self.check_box.setTitle(f"{CHECK_TITLE} (out of date)" if stale else CHECK_TITLE)
+
+    @property
+    def stale(self) -> bool:
+        return self.stale_mark.isVisibleTo(self.check_page)
 
     def set_analysis(self, analysis: Analysis) -> None:
         d = analysis.diagnosis
@@ -127,12 +167,8 @@ class FindingsPanel(QtWidgets.QScrollArea):
         self.check_table.setRowCount(len(items))
         for r, (it, cause) in enumerate(zip(items, causes)):
             self._set_row(r, it, cause)
-        self.check_table.resizeColumnsToContents()
         self.check_table.setVisible(bool(items))
-        h = self.check_table.horizontalHeader().height() + 2
-        for r in range(len(items)):
-            h += self.check_table.rowHeight(r)
-        self.check_table.setFixedHeight(h + 2)
+        self._fit_table()
         lines = [self._cause_line(it, cause) for it, cause in zip(items, causes) if cause]
         if lines:
             self.causes.setText(_bullets("Likely causes and what each figure is", lines))
@@ -140,8 +176,31 @@ class FindingsPanel(QtWidgets.QScrollArea):
         else:
             self.causes.hide()
 
+    def _fit_table(self) -> None:
+        """Columns to their contents, the verdict taking what is left (wrapped), and the
+        table as tall as its rows: five rows never need a scroll bar."""
+        t = self.check_table
+        hh = t.horizontalHeader()
+        last = t.columnCount() - 1
+        for c in range(last):
+            hh.setSectionResizeMode(c, QtWidgets.QHeaderView.ResizeMode.ResizeToContents)
+        hh.setSectionResizeMode(last, QtWidgets.QHeaderView.ResizeMode.Stretch)
+        t.resizeRowsToContents()
+        h = hh.height() + 4 + sum(t.rowHeight(r) for r in range(t.rowCount()))
+        t.setFixedHeight(h)
+
+    def eventFilter(self, watched: QtCore.QObject, event: QtCore.QEvent) -> bool:  # noqa: N802
+        # A narrower page wraps the verdicts onto more lines: keep the table as tall as them.
+        if watched is self.check_table and event.type() == QtCore.QEvent.Type.Resize \
+                and self.check_table.rowCount():
+            QtCore.QTimer.singleShot(0, self._fit_table)
+        return False
+
     def _set_row(self, r: int, it: CheckItem, cause: str) -> None:
-        cells = (_pretty(it.name), quantity(it.expected, it.unit), quantity(it.measured, it.unit),
+        expected = quantity(it.expected, it.unit)
+        if it.expected is not None:
+            expected = f"{expected} ({it.basis})"
+        cells = (_pretty(it.name), expected, quantity(it.measured, it.unit),
                  pct(it.deviation_pct, signed=True), it.verdict)
         for c, text in enumerate(cells):
             cell = QtWidgets.QTableWidgetItem(text)
@@ -159,8 +218,8 @@ class FindingsPanel(QtWidgets.QScrollArea):
         # As the terminal puts it: an item outside its tolerance is "likely" its
         # cause; any other item's words say what the figure is.
         name = f"<b>{html.escape(_pretty(it.name))}</b>"
-        if it.verdict == "outside":
-            return f"{name} (outside): likely {html.escape(cause)}"
+        if it.verdict in DISAGREES:
+            return f"{name} ({html.escape(it.verdict)}): likely {html.escape(cause)}"
         return f"{name}: {html.escape(cause)}"
 
     def check_rows(self) -> list[list[str]]:
@@ -172,4 +231,4 @@ class FindingsPanel(QtWidgets.QScrollArea):
         """The likely-cause list as shown, without markup (tests)."""
         doc = QtGui.QTextDocument()
         doc.setHtml(self.causes.text())
-        return doc.toPlainText() if self.causes.isVisibleTo(self) else ""
+        return doc.toPlainText() if self.causes.isVisibleTo(self.check_page) else ""

@@ -16,14 +16,15 @@ from pathlib import Path
 import pytest
 
 from trueslope.app.jobs import OpenRequest, run_open
-from trueslope.app.panels.figures import FIGURE_GROUPS, FiguresPanel
+from trueslope.app.panels.figures import FiguresPanel
 from trueslope.app.panels.findings import NO_CONTEXT
 from trueslope.core.analysis import LOAD_SHARE
 from trueslope.core.report.export import analysis_document, figures_csv
-from trueslope.core.report.numbers import FIGURES, figure_text
+from trueslope.core.report.numbers import FIGURE_GROUPS
 from trueslope.core.report.prose import (explanation, likely_cause, next_checks,
                                          selfcheck_summary)
-from trueslope.core.report.summary import diagnosis_line, summary_text
+from trueslope.core.report.summary import (diagnosis_line, figure_label, figure_value,
+                                           summary_text)
 from trueslope.core.settings import Settings
 
 from .conftest import open_and_wait
@@ -84,12 +85,13 @@ def test_typed_circuit_values_give_a_worded_self_check(qtbot, window):
 def test_figures_panel_uses_the_reports_labels_and_precision(qtbot, window):
     a = open_and_wait(qtbot, window, ELECTROLYTIC)
     panel = window.figures
-    f = a.figures
-    for _, rows in FIGURE_GROUPS:
-        for row in rows:
-            assert row.label.startswith(FIGURES[row.key].label)
-            # a row of two figures (slope with its interval...) starts with its own
-            assert panel.value_text(row.key).startswith(figure_text(row.key, getattr(f, row.key)))
+    terminal = summary_text(a)
+    for _, keys in FIGURE_GROUPS:
+        for key in keys:
+            # the panel's row is the terminal's row, label and value
+            assert panel.label_text(key) == figure_label(key)
+            assert panel.value_text(key) == figure_value(a, key)
+            assert f"{figure_label(key)}" in terminal and figure_value(a, key) in terminal
 
 
 def test_window_and_terminal_write_a_large_percentage_alike(qtbot, window):
