@@ -66,10 +66,17 @@ class CommandsMixin:
         K = QtGui.QKeySequence.StandardKey
         self.act_open = self._action("&Open capture…", self.open_dialog, K.Open, "Open a capture file")
         self.act_quit = self._action("&Quit", self.close, K.Quit)
-        self.act_json = self._action("Figures as &JSON…", lambda: self._export("json"))
-        self.act_csv = self._action("Figures as &CSV…", lambda: self._export("csv"))
-        self.act_png = self._action("Plots as &PNG…", lambda: self._export("png"))
-        self.act_svg = self._action("Plots as &SVG…", lambda: self._export("svg"))
+        self.act_json = self._action("Whole analysis as &JSON…", lambda: self._export("json"), (),
+                                     "Figures, settings, diagnosis, self-check and cycles as JSON")
+        self.act_csv = self._action("Figures and findings as &CSV…", lambda: self._export("csv"), (),
+                                    "Figures, the window used, channels, circuit, diagnosis and "
+                                    "self-check as one CSV table")
+        self.act_cycles_csv = self._action("Cycles as C&SV…", lambda: self._export("cycles"), (),
+                                           "Each cycle's own figures as a CSV table")
+        self.act_png = self._action("Plots as &PNG…", lambda: self._export("png"), (),
+                                    "The plots with a caption of the headline figures")
+        self.act_svg = self._action("Plots as S&VG…", lambda: self._export("svg"), (),
+                                    "The plots with a caption of the headline figures")
         self.act_copy = self._action("&Copy figures", self.copy_figures, "Ctrl+Shift+C",
                                      "Copy the summary figures to the clipboard")
         self.act_next = self._action("&Next cycle", self.next_cycle, ["]", "PgDown"], "Show the next cycle")
@@ -80,7 +87,8 @@ class CommandsMixin:
         self.act_zoom_all = self._action("Zoom to &all", self.zoom_to_all, "A",
                                          "Zoom out to the whole capture")
         self.act_all_fits = self._action("&Fit on every cycle", self._toggle_all_fits, "F",
-                                         "Draw the fitted line over every cycle, not only the shown one",
+                                         "Draw each cycle's own fitted line "
+                                         "(only every few cycles when they would crowd)",
                                          checkable=True)
         self.act_reset_window = self._action("&Reset window to trim", self.reset_window, (),
                                              "Forget the dragged window; trim each ramp end instead")
@@ -89,7 +97,8 @@ class CommandsMixin:
         self.act_keys = self._action("&Keyboard and mouse", lambda: self._info("Keyboard", helptext.shortcuts_html()))
         self.act_defs = self._action("Measurement &definitions", self.show_definitions)
         self.act_about = self._action("&About trueslope", lambda: self._info("About", helptext.ABOUT_HTML))
-        self._needs_analysis = [self.act_json, self.act_csv, self.act_png, self.act_svg, self.act_copy,
+        self._needs_analysis = [self.act_json, self.act_csv, self.act_cycles_csv, self.act_png,
+                                self.act_svg, self.act_copy,
                                 self.act_next, self.act_prev, self.act_zoom_cycle, self.act_zoom_all,
                                 self.act_reset_window]
 
@@ -101,7 +110,7 @@ class CommandsMixin:
         self.recent_menu.aboutToShow.connect(self._fill_recent)
         m.addSeparator()
         ex = m.addMenu("&Export")
-        for a in (self.act_json, self.act_csv, self.act_png, self.act_svg):
+        for a in (self.act_json, self.act_csv, self.act_cycles_csv, self.act_png, self.act_svg):
             ex.addAction(a)
         m.addAction(self.act_copy)
         m.addSeparator()
@@ -134,16 +143,18 @@ class CommandsMixin:
         self.sync_box.setMinimumContentsLength(10)
         self.sync_box.setSizeAdjustPolicy(QtWidgets.QComboBox.SizeAdjustPolicy.AdjustToContents)
         tb.addWidget(self.sync_box)
-        tb.addWidget(QtWidgets.QLabel(f"  {FIELD_LABELS['trim']} "))
+        self.trim_label = QtWidgets.QLabel(f"  {FIELD_LABELS['trim']} ")
+        tb.addWidget(self.trim_label)
         self.trim_box = QtWidgets.QDoubleSpinBox()
         self.trim_box.setRange(0.0, 100.0 * MAX_TRIM_FRACTION)
         self.trim_box.setDecimals(1)
         self.trim_box.setSingleStep(1.0)
         self.trim_box.setSuffix(" %")
         self.trim_box.setKeyboardTracking(False)
-        self.trim_box.setToolTip("Part of each ramp left out of the fit at each end")
+        self.trim_box.setToolTip(self._TRIM_TIP)
         self.trim_box.setValue(100.0 * self.settings.trim_fraction)
         tb.addWidget(self.trim_box)
+        self.analysis_shown.connect(self._show_window_source)
         tb.addAction(self.act_reset_window)
         tb.addSeparator()
         tb.addAction(self.act_prev)
@@ -169,6 +180,21 @@ class CommandsMixin:
         sb.addPermanentWidget(self.cancel_button)
         self.progress.hide()
         self.cancel_button.hide()
+
+    #: The trim box's tooltip while the trim sets the window.
+    _TRIM_TIP = "Part of each ramp left out of the fit at each end"
+
+    def _show_window_source(self, analysis: Analysis) -> None:
+        """Mark the trim as unused while the dragged band sets the window, so the toolbar
+        never shows a trim beside an explicit window."""
+        explicit = analysis is not None and analysis.settings.window_s is not None
+        self.trim_box.setSuffix(" % (unused)" if explicit else " %")
+        self.trim_box.setToolTip(
+            "Unused: the window was set by dragging the band. Change the trim, or use "
+            "Reset window to trim, to trim each ramp end again" if explicit else self._TRIM_TIP)
+        font = self.trim_box.font()
+        font.setItalic(explicit)
+        self.trim_box.setFont(font)
 
     def _enable_analysis_actions(self, on: bool) -> None:
         for a in self._needs_analysis:
@@ -252,31 +278,40 @@ class CommandsMixin:
 
     # -- exports ------------------------------------------------------------------------------
 
+    #: Save-dialog filter and suggested file-name ending of each export.
+    _EXPORTS = {"json": ("JSON (*.json)", "analysis.json"), "csv": ("CSV (*.csv)", "figures.csv"),
+                "cycles": ("CSV (*.csv)", "cycles.csv"), "png": ("PNG image (*.png)", "plots.png"),
+                "svg": ("SVG drawing (*.svg)", "plots.svg")}
+
     def _export(self, kind: str) -> None:
         if self.analysis is None:
             return
         stem = Path(self.capture.source).stem
-        filters = {"json": "JSON (*.json)", "csv": "CSV (*.csv)", "png": "PNG image (*.png)",
-                   "svg": "SVG drawing (*.svg)"}
-        suggested = str(Path(self.store.last_folder) / f"{stem}_{'figures' if kind in ('json', 'csv') else 'plots'}.{kind}")
-        path, _ = QtWidgets.QFileDialog.getSaveFileName(self, f"Export {kind.upper()}", suggested, filters[kind])
+        filt, ending = self._EXPORTS[kind]
+        suggested = str(Path(self.store.last_folder) / f"{stem}_{ending}")
+        title = "Export the cycles as CSV" if kind == "cycles" else f"Export {kind.upper()}"
+        path, _ = QtWidgets.QFileDialog.getSaveFileName(self, title, suggested, filt)
         if path:
             self.export_to(kind, path)
 
     def export_to(self, kind: str, path: str) -> str:
-        """Write one export to ``path``; errors go to the banner. Returns a status line."""
+        """Write one export (``json``, ``csv``, ``cycles``, ``png``, ``svg``) of the shown
+        analysis to ``path``; errors go to the banner. Returns a status line ("" on failure)."""
+        a = self.analysis
+        if a is None:
+            return ""
+        note = ""
         try:
             if kind == "json":
-                exporting.save_json(self.analysis, path)
-                note = ""
+                exporting.save_json(a, path)
             elif kind == "csv":
-                exporting.save_csv(self.analysis, path)
-                note = ""
+                exporting.save_csv(a, path)
+            elif kind == "cycles":
+                exporting.save_cycles_csv(a, path)
             elif kind == "png":
-                exporting.save_png(self.plots, path)
-                note = ""
+                exporting.save_png(self.plots, path, caption=exporting.caption_lines(a))
             elif kind == "svg":
-                used = exporting.save_svg(self.plots, path)
+                used = exporting.save_svg(self.plots, path, caption=exporting.caption_lines(a))
                 note = " (through Qt's SVG generator)" if used == "qt" else ""
             else:
                 raise ValueError(f"unknown export {kind!r}")
@@ -305,6 +340,11 @@ class CommandsMixin:
     def show_safety(self) -> None:
         self._info("Bench safety", helptext.SAFETY_HTML)
 
-    def show_definitions(self) -> None:
-        from trueslope.core.report import FIGURE_DEFINITIONS
-        self._info("Measurement definitions", helptext.definitions_html(dict(FIGURE_DEFINITIONS)))
+    def show_definitions(self) -> QtWidgets.QDialog:
+        """The figures' labels and definitions, grouped as the figures panel groups them,
+        in a scrolling box no taller than :data:`helptext.MAX_SCREEN_SHARE` of the screen."""
+        dlg = helptext.scrolling_dialog(self, "trueslope — Measurement definitions",
+                                        helptext.definitions_html())
+        dlg.setObjectName("definitions")
+        dlg.open()
+        return dlg

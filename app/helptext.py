@@ -1,4 +1,5 @@
-"""Texts of the Help menu: bench safety, keyboard, measurement definitions."""
+"""Texts of the Help menu: bench safety, keyboard, measurement definitions; and the
+scrolling box that shows a long one."""
 
 from __future__ import annotations
 
@@ -34,7 +35,7 @@ SHORTCUTS: tuple[tuple[str, str], ...] = (
     ("[ or Page Up", "Previous cycle"),
     ("Z", "Zoom to the shown cycle"),
     ("A", "Zoom to the whole capture"),
-    ("F", "Fitted line over every cycle, or only the shown one"),
+    ("F", "Each cycle's own fitted line on or off"),
     ("Ctrl+Shift+C", "Copy the figures to the clipboard"),
     ("Esc", "Cancel the running load or analysis"),
     ("Ctrl+Q", "Quit"),
@@ -49,10 +50,59 @@ def shortcuts_html() -> str:
             "releasing it measures again. Scroll to zoom, drag the background to pan.</p>")
 
 
-def definitions_html(definitions: dict[str, str]) -> str:
-    rows = "".join(f"<tr><td valign='top'><b>{html.escape(k)}</b>&nbsp;&nbsp;</td>"
-                   f"<td>{html.escape(v)}</td></tr>" for k, v in definitions.items())
-    return f"<h3>Measurement definitions</h3><table>{rows}</table>"
+#: Tallest a help box may be, as a share of the screen's available height.
+MAX_SCREEN_SHARE = 0.85
+
+
+def definitions_html(definitions: dict[str, str] | None = None) -> str:
+    """The figures' definitions under the window's labels, grouped as the figures panel
+    groups them (``report.numbers.FIGURE_GROUPS``); defined figures in no group follow
+    under "Also in the exports"."""
+    from trueslope.core.report import FIGURE_DEFINITIONS
+    from trueslope.core.report.numbers import FIGURE_GROUPS, FIGURES
+
+    defs = dict(FIGURE_DEFINITIONS if definitions is None else definitions)
+    groups = [(name, [k for k in keys if k in defs]) for name, keys in FIGURE_GROUPS]
+    grouped = {k for _, keys in groups for k in keys}
+    rest = [k for k in defs if k not in grouped and k in FIGURES]
+    if rest:
+        groups.append(("Also in the exports", rest))
+    parts = ["<h3>Measurement definitions</h3>"]
+    for name, keys in groups:
+        if not keys:
+            continue
+        rows = "".join(f"<tr><td valign='top' width='34%'><b>{html.escape(FIGURES[k].label)}</b>"
+                       f"</td><td valign='top'>{html.escape(defs[k])}</td></tr>" for k in keys)
+        parts.append(f"<h4>{html.escape(name)}</h4>"
+                     f"<table cellspacing='0' cellpadding='3' width='100%'>{rows}</table>")
+    return "".join(parts)
+
+
+def scrolling_dialog(parent, title: str, body_html: str):
+    """A non-modal box showing ``body_html`` in a scrolling view, sized to its text but
+    never taller than :data:`MAX_SCREEN_SHARE` of the screen's available height."""
+    from PySide6 import QtWidgets
+
+    dlg = QtWidgets.QDialog(parent)
+    dlg.setWindowTitle(title)
+    lay = QtWidgets.QVBoxLayout(dlg)
+    view = QtWidgets.QTextBrowser(dlg)
+    view.setOpenExternalLinks(False)
+    view.setHtml(body_html)
+    lay.addWidget(view, 1)
+    buttons = QtWidgets.QDialogButtonBox(QtWidgets.QDialogButtonBox.StandardButton.Close, dlg)
+    buttons.rejected.connect(dlg.reject)
+    lay.addWidget(buttons)
+    screen = (parent.screen() if parent is not None else None) or \
+        QtWidgets.QApplication.primaryScreen()
+    avail = screen.availableGeometry()
+    width = min(720, int(0.9 * avail.width()))
+    view.document().setTextWidth(width - 40)
+    wanted = int(view.document().size().height()) + 90
+    height = min(wanted, int(MAX_SCREEN_SHARE * avail.height()))
+    dlg.resize(width, height)
+    dlg.setMaximumHeight(int(MAX_SCREEN_SHARE * avail.height()))
+    return dlg
 
 
 ABOUT_HTML = """

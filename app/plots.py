@@ -1,11 +1,14 @@
 """The trace view and the residual strip: one pyqtgraph layout, two plots, one time axis.
 
-The trace view draws the whole capture with the fitted line over the shown
-cycle (or over every cycle), and the analysis window as a band the user can
-drag. The residual strip below shares the time axis: the averaged cycle's
-residual is placed under the shown cycle, with the smoothed systematic part
-drawn over the raw points and the noise floor as a band. Its left axis is in
-volts (SI-prefixed by pyqtgraph), its right axis in percent of the fitted span.
+The trace view draws the whole capture with the line fitted to the averaged
+cycle over the shown cycle, optionally each cycle's own fitted line (thinned
+to a readable density, see :class:`~.plotparts.CycleFits`), and the analysis
+window as a band the user can drag. The residual strip below shares the time
+axis: the averaged cycle minus its line, one dot per phase bin, placed under
+the shown cycle, with the smoothed systematic part over it and the
+resolution floor as a band. Residuals are trace minus line in true volts for
+either direction of ramp. Its left axis is in volts (SI-prefixed by
+pyqtgraph), its right axis in percent of the fitted span.
 
 Millions of samples are drawn with pyqtgraph's peak downsampling and
 clip-to-view, set on the item after it has been added to the plot: in
@@ -21,87 +24,24 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 import pyqtgraph as pg
-from PySide6 import QtCore, QtGui
+from PySide6 import QtCore
 
 from . import theme
 from .jobs import TraceData
+from .plotparts import CycleFits, PercentAxis, TraceCurve, key_html, ordinal
+from .plotparts import pen as _pen
 
 if TYPE_CHECKING:
     from trueslope.core.results import Analysis
+
+__all__ = ["MIN_WINDOW_FRACTION", "PercentAxis", "PlotArea", "TraceCurve", "cycle_span",
+           "cycle_view"]
 
 #: Width of the left and right axes, pixels: fixed so that the two plots'
 #: time axes line up exactly.
 _AXIS_WIDTH = 72
 #: Narrowest analysis window the band may be dragged to, as a fraction of the ramp.
 MIN_WINDOW_FRACTION = 0.05
-
-
-def _pen(colour: Any, width: float = 1.0, style: QtCore.Qt.PenStyle | None = None) -> QtGui.QPen:
-    pen = pg.mkPen(colour, width=width)
-    pen.setCosmetic(True)
-    if style is not None:
-        pen.setStyle(style)
-    return pen
-
-
-class TraceCurve(pg.PlotDataItem):
-    """The capture's curve, told that its samples are finite.
-
-    pyqtgraph 0.14 keeps "all finite" flags on its internal datasets but
-    never sets them from ``skipFiniteCheck``; with the flags unknown, every
-    redraw of the downsampling path runs ``x[np.isfinite(x)]`` over the whole
-    record (about 0.15 s per redraw at 10 M samples). The time axis is
-    computed, so always finite; the voltages are checked once, off the GUI
-    thread (:attr:`TraceData.all_finite`). Only the flags are touched, and
-    only where they exist, so a pyqtgraph without them is merely slower.
-    """
-
-    def __init__(self, *args: Any, **kwargs: Any) -> None:
-        super().__init__(*args, **kwargs)
-        self.y_all_finite = False
-
-    def _getDisplayDataset(self):  # noqa: N802 (pyqtgraph naming)
-        for name in ("_dataset", "_datasetMapped"):
-            ds = getattr(self, name, None)
-            if ds is not None and hasattr(ds, "xAllFinite"):
-                ds.xAllFinite = True
-                if self.y_all_finite:
-                    ds.yAllFinite = True
-        return super()._getDisplayDataset()
-
-
-class PercentAxis(pg.AxisItem):
-    """An axis that labels a volts view in percent of a span.
-
-    The view stays in volts; this axis only chooses round percentages for its
-    ticks and writes them, so the strip can show mV on the left and % of span
-    on the right of the same curve.
-    """
-
-    def __init__(self, orientation: str = "right", **kwargs: Any) -> None:
-        super().__init__(orientation, **kwargs)
-        self._pct_per_v = 0.0
-
-    def set_span(self, span_v: float) -> None:
-        """Set the span (volts) that counts as 100 %."""
-        self._pct_per_v = 100.0 / abs(span_v) if span_v and math.isfinite(span_v) else 0.0
-        self.picture = None
-        self.update()
-
-    def tickValues(self, minVal: float, maxVal: float, size: float):  # noqa: N802 (Qt naming)
-        k = self._pct_per_v
-        if not k:
-            return []
-        levels = super().tickValues(minVal * k, maxVal * k, size)
-        return [(spacing / k, [v / k for v in values]) for spacing, values in levels]
-
-    def tickStrings(self, values, scale, spacing):  # noqa: N802 (Qt naming)
-        k = self._pct_per_v
-        if not k or not values:
-            return []
-        step = abs(spacing * k)
-        decimals = min(6, max(0, -math.floor(math.log10(step) + 1e-9)))
-        return [f"{v * k:.{decimals}f}" for v in values]
 
 
 class PlotArea(pg.GraphicsLayoutWidget):
@@ -125,6 +65,8 @@ class PlotArea(pg.GraphicsLayoutWidget):
         self._all_fits = False
         self._placing_band = False
         self._t_range: tuple[float, float] | None = None
+        self._trace_key: str | None = None
+        self._residual_key: str | None = None
 
         self.trace_plot: pg.PlotItem = self.addPlot(row=0, col=0)
         self.residual_plot: pg.PlotItem = self.addPlot(
@@ -135,7 +77,8 @@ class PlotArea(pg.GraphicsLayoutWidget):
         lay.setVerticalSpacing(4)
 
         self._style_plot(self.trace_plot, "Voltage", "V")
-        self._style_plot(self.residual_plot, "Residual", "V")
+        # Trace minus line in true volts, whichever way the ramp runs: nothing here is mirrored.
+        self._style_plot(self.residual_plot, "Trace − line", "V")
         self.trace_plot.showAxis("right")
         self.trace_plot.getAxis("right").setStyle(showValues=False)
         self.residual_plot.showAxis("right")
@@ -151,14 +94,7 @@ class PlotArea(pg.GraphicsLayoutWidget):
         vb.setAutoVisible(y=True)
 
         # Keys sit in the plots' title rows, where they can never hide data.
-        self.trace_plot.setTitle(_key([("line", theme.TRACE, "capture"),
-                                       ("line", theme.FIT_LINE, "fitted line"),
-                                       ("box", theme.BAND_FILL, "analysis window (drag it)")]),
-                                 size="9pt")
-        self.residual_plot.setTitle(_key([("dot", theme.RESIDUAL_POINTS, "averaged cycle's residual"),
-                                          ("line", theme.RESIDUAL_SMOOTH, "systematic part"),
-                                          ("box", theme.NOISE_BAND, "resolution floor")]),
-                                    size="9pt")
+        self._update_keys()
 
         # Trace: pen width 1; downsampling and clipping are set after adding.
         self.trace_curve = TraceCurve(pen=_pen(theme.TRACE, 1))
@@ -182,8 +118,11 @@ class PlotArea(pg.GraphicsLayoutWidget):
         self.band.sigRegionChangeFinished.connect(self._on_band_released)
         self.band.sigRegionChanged.connect(self._mirror_band)
 
-        self.fit_others = pg.PlotDataItem(pen=_pen(theme.FIT_LINE_OTHER, 1), connect="finite")
+        self.fit_others = pg.PlotDataItem(pen=_pen(theme.FIT_LINE_OTHER, 2), connect="finite")
         self.trace_plot.addItem(self.fit_others)
+        self.cycle_fits = CycleFits(self.fit_others)
+        vb.sigXRangeChanged.connect(self._on_view_changed)
+        vb.sigResized.connect(self._on_view_changed)
         self.fit_shown = pg.PlotDataItem(pen=_pen(theme.FIT_LINE, 2))
         self.trace_plot.addItem(self.fit_shown)
 
@@ -232,8 +171,11 @@ class PlotArea(pg.GraphicsLayoutWidget):
         self._analysis = None
         self.trace_curve.setData([], [])
         self._t_range = None
-        for item in (self.fit_shown, self.fit_others, self.residual_points, self.residual_smooth):
+        for item in (self.fit_shown, self.residual_points, self.residual_smooth):
             item.setData([], [])
+        self.cycle_fits.set_analysis(None)
+        self.cycle_fits.clear()
+        self._update_keys()
         for item in (self.band, self.band_copy, self.cycle_fill, self.noise_band):
             item.hide()
 
@@ -270,6 +212,7 @@ class PlotArea(pg.GraphicsLayoutWidget):
             self.noise_band.hide()
         for item in (self.band, self.band_copy, self.cycle_fill):
             item.show()
+        self.cycle_fits.set_analysis(analysis)
         self._draw_other_fits()
         self.show_cycle(shown)
         self.fit_residual_y()
@@ -288,24 +231,50 @@ class PlotArea(pg.GraphicsLayoutWidget):
         self._all_fits = bool(on)
         self._draw_other_fits()
 
-    def _sign(self) -> float:
-        return -1.0 if self._analysis.averaged.mirrored else 1.0
+    @property
+    def all_fits(self) -> bool:
+        return self._all_fits
 
     def _draw_other_fits(self) -> None:
-        a = self._analysis
-        if a is None or not self._all_fits:
-            self.fit_others.setData([], [])
-            return
-        av = a.averaged
-        starts = np.asarray(a.segmentation.ramp_start_s, dtype=float)
-        ends = np.array([av.window_start_s, av.window_end_s])
-        x = np.empty((starts.size, 3))
-        x[:, :2] = starts[:, None] + ends[None, :]
-        x[:, 2] = np.nan
-        y = np.empty_like(x)
-        y[:, :2] = self._sign() * av.fit.at(ends)[None, :]
-        y[:, 2] = np.nan
-        self.fit_others.setData(x.ravel(), y.ravel())
+        if self._analysis is None or not self._all_fits:
+            self.cycle_fits.clear()
+        else:
+            lo, hi = self.x_range()
+            self.cycle_fits.update(lo, hi, self.trace_plot.getViewBox().width())
+        self._update_keys()
+
+    def _on_view_changed(self, *_: Any) -> None:
+        if self._analysis is not None and self._all_fits:
+            lo, hi = self.x_range()
+            if self.cycle_fits.update(lo, hi, self.trace_plot.getViewBox().width()):
+                self._update_keys()
+
+    def fits_key_text(self) -> str:
+        """What the key says of the per-cycle lines ("" when they are off)."""
+        if self._analysis is None or not self._all_fits:
+            return ""
+        step = self.cycle_fits.step
+        if step <= 1:
+            return "each cycle's own fitted line"
+        return f"each cycle's own fitted line (every {ordinal(step)} cycle at this zoom)"
+
+    def _update_keys(self) -> None:
+        entries = [("line", theme.TRACE, "capture"),
+                   ("line", theme.FIT_LINE, "line fitted to the averaged cycle")]
+        fits = self.fits_key_text()
+        if fits:
+            entries.append(("thin", theme.FIT_LINE_OTHER, fits))
+        entries.append(("box", theme.BAND_FILL, "analysis window"))
+        key = key_html(entries)
+        if key != self._trace_key:
+            self._trace_key = key
+            self.trace_plot.setTitle(key, size="9pt")
+        if self._residual_key is None:
+            self._residual_key = key_html([
+                ("dot", theme.RESIDUAL_POINTS, "averaged cycle − its line, one dot per phase bin"),
+                ("line", theme.RESIDUAL_SMOOTH, "systematic part"),
+                ("box", theme.NOISE_BAND, "resolution floor")])
+            self.residual_plot.setTitle(self._residual_key, size="9pt")
 
     def cycle_span(self, i: int) -> tuple[float, float]:
         """Start of cycle ``i``'s ramp and end of its retrace, absolute seconds."""
@@ -324,10 +293,12 @@ class PlotArea(pg.GraphicsLayoutWidget):
         self.cycle_fill.setRegion((start, end))
         self._place_band(start + av.window_start_s, start + av.window_end_s, start, start + ramp)
         t = np.array([av.window_start_s, av.window_end_s])
-        self.fit_shown.setData(start + t, self._sign() * av.fit.at(t))
+        # The fit is in the measurement frame; drawn over the trace in true volts.
+        sign = -1.0 if av.mirrored else 1.0
+        self.fit_shown.setData(start + t, sign * av.fit.at(t))
         x = start + np.asarray(av.time_s, dtype=float)
-        self.residual_points.setData(x, np.asarray(av.residual_v, dtype=float))
-        self.residual_smooth.setData(x, np.asarray(av.smoothed_residual_v, dtype=float))
+        self.residual_points.setData(x, np.asarray(av.residual_true_v, dtype=float))
+        self.residual_smooth.setData(x, np.asarray(av.smoothed_residual_true_v, dtype=float))
 
     def _place_band(self, a: float, b: float, lo: float, hi: float) -> None:
         self._placing_band = True
@@ -394,9 +365,9 @@ class PlotArea(pg.GraphicsLayoutWidget):
         if a is None:
             return
         av = a.averaged
-        r = np.asarray(av.residual_v, dtype=float)
+        r = np.asarray(av.residual_true_v, dtype=float)
         inside = r[np.asarray(av.in_window, dtype=bool) & np.isfinite(r)]
-        sm = np.asarray(av.smoothed_residual_v, dtype=float)
+        sm = np.asarray(av.smoothed_residual_true_v, dtype=float)
         sm = sm[np.isfinite(sm)]
         floor = float(a.noise.nonlinearity_floor_pct) / 100.0 * float(a.figures.fitted_span_v)
         m = max(float(np.max(np.abs(inside))) if inside.size else 0.0,
@@ -410,24 +381,6 @@ class PlotArea(pg.GraphicsLayoutWidget):
     def x_range(self) -> tuple[float, float]:
         lo, hi = self.trace_plot.getViewBox().viewRange()[0]
         return float(lo), float(hi)
-
-
-def _css(colour: Any) -> str:
-    if isinstance(colour, tuple):
-        r, g, b = colour[:3]
-        a = colour[3] if len(colour) > 3 else 255
-        # Keys are drawn on the plain background: give faint fills more body.
-        return f"rgba({r},{g},{b},{min(1.0, 3 * a / 255):.2f})"
-    return str(colour)
-
-
-def _key(entries: list[tuple[str, Any, str]]) -> str:
-    """HTML for a one-line key: a coloured mark, then its words, for each entry."""
-    marks = {"line": "&#9472;&#9472;", "dot": "&#9679;", "box": "&#9632;"}
-    parts = [f"<span style='color:{_css(c)}; font-weight:bold'>{marks[k]}</span>"
-             f"<span style='color:{theme.PLOT_FOREGROUND}'>&nbsp;{text}</span>"
-             for k, c, text in entries]
-    return "&nbsp;&nbsp;&nbsp;&nbsp;".join(parts)
 
 
 def cycle_span(analysis: Analysis, i: int) -> tuple[float, float]:

@@ -1,0 +1,184 @@
+"""Pieces of the plot area: the trace curve, the percent axis, the plot keys and the
+layer of every cycle's own fitted line.
+
+Kept apart from :mod:`.plots` (which lays them out and moves them with the
+shown cycle) so that each module stays readable.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+import pyqtgraph as pg
+from PySide6 import QtCore, QtGui
+
+from . import theme
+
+if TYPE_CHECKING:
+    from trueslope.core.results import Analysis
+
+#: Closest spacing of two drawn per-cycle lines, pixels: below it the lines
+#: merge into a solid block, so only every k-th cycle's line is drawn.
+MIN_PX_PER_FIT = 10.0
+
+
+def pen(colour: Any, width: float = 1.0, style: QtCore.Qt.PenStyle | None = None) -> QtGui.QPen:
+    """A cosmetic pen (its width in pixels at any zoom)."""
+    p = pg.mkPen(colour, width=width)
+    p.setCosmetic(True)
+    if style is not None:
+        p.setStyle(style)
+    return p
+
+
+class TraceCurve(pg.PlotDataItem):
+    """The capture's curve, told that its samples are finite.
+
+    pyqtgraph 0.14 keeps "all finite" flags on its internal datasets but
+    never sets them from ``skipFiniteCheck``; with the flags unknown, every
+    redraw of the downsampling path runs ``x[np.isfinite(x)]`` over the whole
+    record (about 0.15 s per redraw at 10 M samples). The time axis is
+    computed, so always finite; the voltages are checked once, off the GUI
+    thread (:attr:`TraceData.all_finite`). Only the flags are touched, and
+    only where they exist, so a pyqtgraph without them is merely slower.
+    """
+
+    def __init__(self, *args: Any, **kwargs: Any) -> None:
+        super().__init__(*args, **kwargs)
+        self.y_all_finite = False
+
+    def _getDisplayDataset(self):  # noqa: N802 (pyqtgraph naming)
+        for name in ("_dataset", "_datasetMapped"):
+            ds = getattr(self, name, None)
+            if ds is not None and hasattr(ds, "xAllFinite"):
+                ds.xAllFinite = True
+                if self.y_all_finite:
+                    ds.yAllFinite = True
+        return super()._getDisplayDataset()
+
+
+class PercentAxis(pg.AxisItem):
+    """An axis that labels a volts view in percent of a span.
+
+    The view stays in volts; this axis only chooses round percentages for its
+    ticks and writes them, so the strip can show mV on the left and % of span
+    on the right of the same curve.
+    """
+
+    def __init__(self, orientation: str = "right", **kwargs: Any) -> None:
+        super().__init__(orientation, **kwargs)
+        self._pct_per_v = 0.0
+
+    def set_span(self, span_v: float) -> None:
+        """Set the span (volts) that counts as 100 %."""
+        self._pct_per_v = 100.0 / abs(span_v) if span_v and math.isfinite(span_v) else 0.0
+        self.picture = None
+        self.update()
+
+    def tickValues(self, minVal: float, maxVal: float, size: float):  # noqa: N802 (Qt naming)
+        k = self._pct_per_v
+        if not k:
+            return []
+        levels = super().tickValues(minVal * k, maxVal * k, size)
+        return [(spacing / k, [v / k for v in values]) for spacing, values in levels]
+
+    def tickStrings(self, values, scale, spacing):  # noqa: N802 (Qt naming)
+        k = self._pct_per_v
+        if not k or not values:
+            return []
+        step = abs(spacing * k)
+        decimals = min(6, max(0, -math.floor(math.log10(step) + 1e-9)))
+        return [f"{v * k:.{decimals}f}" for v in values]
+
+
+class CycleFits:
+    """Every cycle's own fitted line (its slope and offset from ``CycleFigures``),
+    over the fit window of each cycle, in true volts.
+
+    Only the cycles in view are drawn, and when they would sit closer than
+    :data:`MIN_PX_PER_FIT` pixels apart only every ``step``-th one (counted
+    from cycle 0, so panning does not make the lines jump): :attr:`step` says
+    which, for the plot's key.
+    """
+
+    def __init__(self, item: pg.PlotDataItem) -> None:
+        self.item = item
+        self.step = 1
+        self.drawn = np.zeros(0, dtype=int)
+        self._starts = np.zeros(0)
+        self._line = np.zeros((0, 2))
+        self._x = np.zeros((0, 2))
+
+    def set_analysis(self, analysis: Analysis | None) -> None:
+        """Take each cycle's line from ``analysis`` (None forgets them)."""
+        if analysis is None or not analysis.cycles:
+            self._starts = np.zeros(0)
+            self._line = np.zeros((0, 2))
+            self._x = np.zeros((0, 2))
+            return
+        av = analysis.averaged
+        cyc = analysis.cycles
+        starts = np.array([c.ramp_start_s for c in cyc], dtype=float)
+        slope = np.array([c.slope_v_per_s for c in cyc], dtype=float)
+        offset = np.array([c.offset_v for c in cyc], dtype=float)
+        t = np.array([av.window_start_s, av.window_end_s], dtype=float)
+        self._starts = starts
+        self._x = starts[:, None] + t[None, :]
+        self._line = offset[:, None] + slope[:, None] * t[None, :]
+
+    def clear(self) -> None:
+        self.item.setData([], [])
+        self.drawn = np.zeros(0, dtype=int)
+        self.step = 1
+
+    def update(self, x_lo: float, x_hi: float, width_px: float) -> bool:
+        """Draw the lines of the cycles inside ``x_lo``..``x_hi`` seconds on a view
+        ``width_px`` pixels wide. Returns True when :attr:`step` changed."""
+        before = self.step
+        n = self._starts.size
+        if n == 0:
+            self.clear()
+            return before != self.step
+        lo = int(np.searchsorted(self._x[:, 1], x_lo, side="left"))
+        hi = int(np.searchsorted(self._x[:, 0], x_hi, side="right"))
+        visible = max(0, hi - lo)
+        most = max(1, int(max(width_px, 1.0) // MIN_PX_PER_FIT))
+        self.step = max(1, math.ceil(visible / most))
+        first = -(-lo // self.step) * self.step
+        idx = np.arange(first, hi, self.step, dtype=int)
+        self.drawn = idx
+        if idx.size == 0:
+            self.item.setData([], [])
+            return before != self.step
+        x = np.full((idx.size, 3), np.nan)
+        y = np.full((idx.size, 3), np.nan)
+        x[:, :2] = self._x[idx]
+        y[:, :2] = self._line[idx]
+        self.item.setData(x.ravel(), y.ravel())
+        return before != self.step
+
+
+def _css(colour: Any) -> str:
+    if isinstance(colour, tuple):
+        r, g, b = colour[:3]
+        a = colour[3] if len(colour) > 3 else 255
+        # Keys are drawn on the plain background: give faint fills more body.
+        return f"rgba({r},{g},{b},{min(1.0, 3 * a / 255):.2f})"
+    return str(colour)
+
+
+def key_html(entries: list[tuple[str, Any, str]]) -> str:
+    """HTML for a one-line key: a coloured mark, then its words, for each entry."""
+    marks = {"line": "&#9472;&#9472;", "thin": "&#9472;", "dot": "&#9679;", "box": "&#9632;"}
+    parts = [f"<span style='color:{_css(c)}; font-weight:bold'>{marks[k]}</span>"
+             f"<span style='color:{theme.PLOT_FOREGROUND}'>&nbsp;{text}</span>"
+             for k, c, text in entries]
+    return "&nbsp;&nbsp;&nbsp;".join(parts)
+
+
+def ordinal(n: int) -> str:
+    """``2nd``, ``3rd``, ``11th``, ``115th``."""
+    suffix = "th" if 10 <= n % 100 <= 20 else {1: "st", 2: "nd", 3: "rd"}.get(n % 10, "th")
+    return f"{n}{suffix}"
