@@ -101,8 +101,8 @@ class Capture:
         names = self.channel_names
         if key is None:
             return names[0], self.channels[names[0]]
-        if isinstance(key, int) or (isinstance(key, str) and key.strip().isdigit()
-                                    and key not in self.channels):
+        index = isinstance(key, str) and key.strip().isascii() and key.strip().isdigit()
+        if isinstance(key, int) or (index and key not in self.channels):
             i = int(key)
             if 0 <= i < len(names):
                 return names[i], self.channels[names[i]]

@@ -9,20 +9,19 @@ from __future__ import annotations
 
 import argparse
 import dataclasses
-import errno
 import json
 import math
 import os
 import re
 import sys
-import tempfile
 import warnings
 from contextlib import contextmanager
 from pathlib import Path
 from typing import Any, Iterator, NoReturn, Sequence
 
-from .errors import (AnalysisError, ChannelNotFoundError, NoSampleIntervalError, SettingsError,
-                     TrueslopeError)
+from .errors import (AnalysisError, ChannelNotFoundError, NoSampleIntervalError, OutputError,
+                     SettingsError, TrueslopeError)
+from .outputs import check_output, write_text_atomic
 from .settings import Settings
 
 #: An option value argparse would take for an option: a negative number or a list starting
@@ -94,6 +93,9 @@ def build_parser() -> OneLineParser:
                    help="print JSON (one document for one file; for several, a list with an "
                         "error entry in place of each refused file)")
     p.add_argument("--cycles-csv", metavar="OUT", help="write the per-cycle figures to this CSV file")
+    p.add_argument("--limits", metavar="LIMITS.toml",
+                   help="judge each capture against a limits file; exit 1 when any does not "
+                        "pass")
     p.add_argument("--force", action="store_true",
                    help="let --cycles-csv replace an existing file (never a capture)")
     g = p.add_argument_group("circuit context (enables the self-check)")
@@ -249,76 +251,6 @@ def measure(file: str, settings: Settings, dt: float | None, as_json: bool
                                           f"({type(exc).__name__}: {exc})"), type(exc).__name__)
 
 
-# -- the output file ----------------------------------------------------------------------
-
-def check_output(out: Path, captures: Sequence[str], force: bool) -> None:
-    """Refuse an output that is one of the captures (the same path, a symbolic link to it or
-    a hard link: same device and inode), a folder, a missing folder's file, or an existing
-    file without ``force``."""
-    try:
-        out_id = os.stat(out)
-    except OSError:
-        out_id = None
-    for f in captures:
-        try:
-            same = Path(f).resolve() == out.resolve()
-            if not same and out_id is not None:
-                st = os.stat(f)
-                same = (st.st_dev, st.st_ino) == (out_id.st_dev, out_id.st_ino)
-        except (OSError, RuntimeError):
-            continue
-        if same:
-            raise Refusal(f"--cycles-csv: {out} is the capture {f}; choose another name")
-    if out.is_dir():
-        raise Refusal(f"--cycles-csv: {out} is a folder; name a file")
-    if not out.parent.is_dir():
-        raise Refusal(f"--cycles-csv: cannot write {out}: the folder {out.parent} does not exist")
-    if os.path.lexists(out) and not force:
-        raise Refusal(f"--cycles-csv: {out} already exists; pass --force to replace it")
-
-
-def write_atomic(out: Path, text: str, *, replace: bool) -> None:
-    """Write ``text`` (UTF-8) to ``out`` all at once: a temporary file in the same folder,
-    flushed to disk, then renamed over ``out`` (``replace``) or linked to a new name only,
-    so a reader never sees half a file and an existing file is never half overwritten."""
-    folder = out.parent
-    fd, tmp = tempfile.mkstemp(prefix=f".{out.name[:64]}.", suffix=".part", dir=folder)
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8", errors="backslashreplace", newline="") as fh:
-            fh.write(text)
-            fh.flush()
-            os.fsync(fh.fileno())
-        umask = os.umask(0o022)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)
-        if replace:
-            os.replace(tmp, out)
-        else:
-            try:
-                os.link(tmp, out)  # fails if out appeared meanwhile: never over a file
-            except FileExistsError:
-                raise Refusal(f"--cycles-csv: {out} already exists; pass --force to replace it")
-            except OSError as exc:
-                if exc.errno not in (errno.EPERM, errno.ENOTSUP, errno.EOPNOTSUPP, errno.EMLINK):
-                    raise
-                if os.path.lexists(out):  # a folder without hard links
-                    raise Refusal(f"--cycles-csv: {out} already exists; pass --force to replace it")
-                os.replace(tmp, out)
-        try:
-            dfd = os.open(folder, os.O_RDONLY)
-        except OSError:
-            return
-        try:
-            os.fsync(dfd)
-        except OSError:
-            pass
-        finally:
-            os.close(dfd)
-    finally:
-        if os.path.lexists(tmp):
-            os.unlink(tmp)
-
-
 # -- the command --------------------------------------------------------------------------
 
 @contextmanager
@@ -359,12 +291,16 @@ def _run(args: argparse.Namespace) -> int:
         _refuse(error_line(exc))
         return 2
     out = Path(args.cycles_csv) if args.cycles_csv else None
-    if out is not None:
-        try:
-            check_output(out, args.files, args.force)
-        except Refusal as exc:
-            _refuse(str(exc))
-            return 2
+    try:
+        if out is not None:
+            check_output(out, args.force, inputs=args.files)
+        limits = None
+        if args.limits:
+            from .limits import read_limits
+            limits = read_limits(args.limits)
+    except TrueslopeError as exc:
+        _refuse(("--cycles-csv: " if isinstance(exc, OutputError) else "") + error_line(exc))
+        return 2
     outcomes = []
     for f in args.files:
         outcome = measure(f, settings, dt, args.json)
@@ -378,13 +314,14 @@ def _run(args: argparse.Namespace) -> int:
         analyses = [a for a, _ in good]
         text = cycles_csv(analyses[0]) if len(args.files) == 1 else batch_cycles_csv(analyses)
         try:
-            write_atomic(out, text, replace=args.force)
-        except Refusal as exc:
-            _refuse(str(exc))
+            write_text_atomic(out, text, args.force, inputs=args.files)
+        except TrueslopeError as exc:
+            _refuse(f"--cycles-csv: {error_line(exc)}")
             status = 2
-        except OSError as exc:
-            _refuse(f"--cycles-csv: cannot write {out}: {exc.strerror or exc}")
-            status = 2
+    if limits is not None and good:
+        good, failed = judged(good, limits, args.json)
+        if failed and status == 0:
+            status = 1
     if args.json:
         if len(args.files) == 1:
             if good:
@@ -395,6 +332,24 @@ def _run(args: argparse.Namespace) -> int:
     elif good:
         _emit("\n\n".join(text for _, text in good))
     return status
+
+
+def judged(good: list, limits: Any, as_json: bool) -> tuple[list, bool]:
+    """Each good result with its verdict against the limits (the text gains the verdict's
+    lines, the JSON document a ``limits`` entry); and whether any did not pass."""
+    from .limits import judge
+    from .report.compare_text import limit_line, verdict_lines
+    out, failed = [], False
+    for a, shown in good:
+        v = judge(a, limits)
+        failed |= v.verdict != "pass"
+        if as_json:
+            doc = dict(shown)
+            doc["limits"] = dict(v.to_dict(), lines=[limit_line(r) for r in v.results])
+            out.append((a, doc))
+        else:
+            out.append((a, shown + "\n" + "\n".join(verdict_lines(v))))
+    return out, failed
 
 
 def leave(status: int) -> NoReturn:

@@ -19,7 +19,8 @@ from typing import Iterable
 
 from .errors import OutputError, OutputExistsError, OutputIsInputError
 
-__all__ = ["OutputError", "OutputExistsError", "OutputIsInputError", "write_text_atomic"]
+__all__ = ["OutputError", "OutputExistsError", "OutputIsInputError", "check_output",
+           "write_text_atomic"]
 
 
 def _same_file(a: Path, b: Path) -> bool:
@@ -59,6 +60,27 @@ def _why(exc: OSError) -> str:
                                                            exc.strerror or "the system refused")
 
 
+def check_output(path: str | Path, force: bool = False, *,
+                 inputs: Iterable[str | Path] = ()) -> Path:
+    """Refuse, before any work is done, an output that :func:`write_text_atomic` would
+    refuse: one of the inputs, a folder, a missing folder, or an existing file without
+    ``force``. Returns the path."""
+    target = Path(path)
+    name = target.name or str(target)
+    for src in inputs:
+        if _same_file(target, Path(src)):
+            raise OutputIsInputError(f"{name} is one of the input files: choose another "
+                                     f"name for the output")
+    if target.is_dir():
+        raise OutputError(f"cannot write {name}: it is a folder")
+    parent = target.parent if str(target.parent) else Path(".")
+    if not parent.is_dir():
+        raise OutputError(f"cannot write {name}: its folder does not exist")
+    if target.exists() and not force:
+        raise OutputExistsError(f"{name} already exists: pass --force to overwrite it")
+    return target
+
+
 def write_text_atomic(path: str | Path, text: str, force: bool = False, *,
                       inputs: Iterable[str | Path] = (), encoding: str = "utf-8") -> Path:
     """Write ``text`` to ``path`` atomically, refusing to overwrite unless ``force``.
@@ -90,16 +112,8 @@ def write_text_atomic(path: str | Path, text: str, force: bool = False, *,
     OutputError
         The folder is missing or not writable, the disk is full, ``path`` is a folder.
     """
-    target = Path(path)
+    target = check_output(path, force, inputs=inputs)
     name = target.name or str(target)
-    for src in inputs:
-        if _same_file(target, Path(src)):
-            raise OutputIsInputError(f"{name} is one of the input files: choose another "
-                                     f"name for the output")
-    if target.is_dir():
-        raise OutputError(f"cannot write {name}: it is a folder")
-    if target.exists() and not force:
-        raise OutputExistsError(f"{name} already exists: pass --force to overwrite it")
     folder = target.parent if str(target.parent) else Path(".")
     data = text.encode(encoding)
     try:

@@ -131,12 +131,19 @@ def _parse_lines(blk: _Blocks, a: int, b: int, cancel: Callable[[], None]) -> li
     return [np.array(c, dtype=np.float64) for c in cols]
 
 
-def _arrow_reader(dialect: Dialect):
+#: Files at least this large are parsed on pyarrow's thread pool. Smaller ones are parsed
+#: on the calling thread: the pool's threads, once started, can abort the process at its
+#: exit (a native thread still running while the interpreter shuts down), and a small
+#: file gains little from them.
+THREADED_PARSE_BYTES = 64 * 1024 * 1024
+
+
+def _arrow_reader(dialect: Dialect, threads: bool = False):
     import pyarrow as pa
     import pyarrow.csv as pacsv
     k = dialect.fields
     names = [f"f{i}" for i in range(k + (1 if dialect.trailing else 0))]
-    ro = pacsv.ReadOptions(column_names=names, use_threads=True, block_size=1 << 20)
+    ro = pacsv.ReadOptions(column_names=names, use_threads=threads, block_size=1 << 20)
     po = pacsv.ParseOptions(delimiter=dialect.delimiter, ignore_empty_lines=True)
     co = pacsv.ConvertOptions(column_types={n: pa.float64() for n in names[:k]},
                               include_columns=names[:k], null_values=[""],
@@ -336,7 +343,7 @@ def _read_data(mm: mmap.mmap, size: int, sniff: Sniff, path: str,
         if dia.delimiter is None:
             engine, engine_errors = _pandas_reader(dia)
         else:
-            engine, engine_errors = _arrow_reader(dia)
+            engine, engine_errors = _arrow_reader(dia, threads=size >= THREADED_PARSE_BYTES)
     except ImportError:
         engine, engine_errors = None, ()
     parts: list[list[np.ndarray]] = []
