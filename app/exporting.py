@@ -6,7 +6,7 @@ The texts come from :mod:`trueslope.core.report`: the JSON document is
 :func:`~trueslope.core.report.export.cycles_csv`, the clipboard text the
 terminal's summary. The window's CSV is
 :func:`~trueslope.core.report.export.figures_csv` followed by the rest of the
-story (:mod:`.storycsv`): the window used, the channels, the circuit, the
+story (``report.figures_csv``): the window used, the channels, the circuit, the
 diagnosis and the self-check. Pictures carry a caption (:func:`caption_lines`):
 file, channel, date and the headline figures with the window used.
 
@@ -42,9 +42,9 @@ def save_json(analysis: Analysis, path: str | os.PathLike[str]) -> None:
 
 def save_csv(analysis: Analysis, path: str | os.PathLike[str]) -> None:
     """Write the figures and the rest of the story as one two-column CSV table
-    (:func:`.storycsv.window_csv`)."""
-    from .storycsv import window_csv
-    Path(path).write_text(window_csv(analysis), encoding="utf-8", newline="")
+    (``report.figures_csv``)."""
+    from trueslope.core.report import figures_csv
+    Path(path).write_text(figures_csv(analysis), encoding="utf-8", newline="")
 
 
 def save_cycles_csv(analysis: Analysis, path: str | os.PathLike[str]) -> None:

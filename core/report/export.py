@@ -13,10 +13,11 @@ import io
 import json
 import re
 from pathlib import Path
-from typing import Any, Iterable
+from typing import Any, Iterable, Iterator
 
 from ..jsonable import plain
 from ..results import Analysis, CycleFigures
+from .summary import window_note
 from .prose import (PROBE_MATCH_WORDS, explanation, likely_cause, next_checks,
                     selfcheck_summary, strength_words)
 
@@ -90,6 +91,9 @@ def analysis_document(a: Analysis) -> dict[str, Any]:
         "sample_interval_s": a.sample_interval_s,
     }
     d.update(a.figures.to_dict())
+    d["window_set"] = window_note(a)
+    if not window_from_trim(a):
+        d["trim_fraction"] = None  # the window was not the trimmed one
     d["averaged_noise_rms_v"] = plain(a.noise.averaged_noise_rms_v)
     d["segmentation_source"] = a.segmentation.source
     d["low_level_v"] = plain(a.segmentation.levels.low_v)
@@ -165,15 +169,74 @@ def batch_cycles_csv(analyses: Iterable[Analysis]) -> str:
                      ([Path(a.source).name] + cycle_row(c) for a in analyses for c in a.cycles))
 
 
+def window_from_trim(a: Analysis) -> bool:
+    """True when the fit window is the trimmed one (not explicit, not shortened by clipping)."""
+    return a.settings.window_s is None and "clipped" not in {w.code for w in a.warnings}
+
+
+def _flat(prefix: str, value: Any) -> Iterator[tuple[str, Any]]:
+    """``(dotted name, cell)`` rows of a JSON-typed value: dicts by key, text lists one
+    row per entry (numbered from 1), number lists in one cell."""
+    if isinstance(value, dict):
+        for k, v in value.items():
+            yield from _flat(f"{prefix}.{k}", v)
+    elif isinstance(value, (list, tuple)):
+        if value and all(isinstance(x, (int, float)) and not isinstance(x, bool) for x in value):
+            yield prefix, " ".join(repr(x) for x in value)
+        elif not value:
+            yield prefix, ""
+        else:
+            for i, x in enumerate(value, 1):
+                yield from _flat(f"{prefix}.{i}", x)
+    else:
+        yield prefix, "" if value is None else value
+
+
+def story_rows(a: Analysis) -> list[tuple[str, Any]]:
+    """What belongs beside the figures in a table: the window as set, channels, excluded
+    cycles, the circuit as stated, the diagnosis (numbers and words), the self-check item
+    by item, and the warnings; dotted names (``diagnosis.tau_s``)."""
+    s = a.settings
+    rows: list[tuple[str, Any]] = [("window_set", window_note(a))]
+    if s.window_s is not None:
+        rows += [("window_requested_start_s", float(s.window_s[0])),
+                 ("window_requested_end_s", float(s.window_s[1]))]
+    rows.append(("sync_channel", "" if s.sync_channel is None else str(s.sync_channel)))
+    rows.append(("excluded_cycles", " ".join(str(i) for i in s.excluded_cycles)))
+    rows += (list(_flat("circuit", s.context.to_dict())) if s.context is not None
+             else [("circuit", "not stated")])
+    rows += list(_flat("diagnosis", diagnosis_document(a)))
+    check = selfcheck_document(a)
+    if check is None:
+        rows.append(("context_check", "not run: no circuit stated"))
+    else:
+        items = check.pop("items", [])
+        rows += list(_flat("context_check", check))
+        for item in items:
+            name = str(item.get("name", "item")).replace(" ", "_")
+            rows += [(k, v) for k, v in _flat(f"context_check.{name}", item)
+                     if not k.endswith(".name")]
+    rows += [(f"warning.{i}", str(w)) for i, w in enumerate(a.warnings, 1)]
+    return rows
+
+
 def figures_csv(a: Analysis) -> str:
-    """Summary figures as two-column CSV text: figure, value (SI)."""
+    """The summary as two-column CSV text, ``figure,value`` (SI): the figures (the slope's
+    interval as two rows; no trim beside a window that was not the trimmed one), then
+    :func:`story_rows`. Every cell formula-safe."""
     rows = []
     for k, v in analysis_document(a).items():
         if k in ("cycles", "diagnosis", "context_check", "metadata", "warnings",
-                 "warning_codes", "settings"):
+                 "warning_codes", "settings", "window_set"):
+            continue
+        if k == "trim_fraction" and v is None:
+            continue  # the window was not the trimmed one: the story's window_set says how
+        if k == "slope_ci95_v_per_s":
+            rows += [["slope_ci95_low_v_per_s", v[0]], ["slope_ci95_high_v_per_s", v[1]]]
             continue
         if isinstance(v, list):
             v = " ".join("" if x is None else repr(x) for x in v)
         rows.append([k, "" if v is None else v])
     rows.append(["diagnosis_signature", a.diagnosis.signature])
+    rows += [[k, v] for k, v in story_rows(a)]
     return _csv_text(["figure", "value"], rows)

@@ -19,7 +19,7 @@ from trueslope.app import exporting, helptext
 from trueslope.app.jobs import TraceData
 from trueslope.app.plotparts import MIN_PX_PER_FIT, CycleFits
 from trueslope.app.plots import PlotArea
-from trueslope.app.storycsv import window_csv
+from trueslope.core.report import figures_csv as window_csv
 from trueslope.core.analysis import analyse
 from trueslope.core.circuit import CircuitContext
 from trueslope.core.report import cycles_csv

@@ -106,7 +106,7 @@ def test_cancel_before_anything_is_read(big_csv):
 def test_exact_reader_agrees_with_pyarrow(big_csv, monkeypatch):
     fast = load_capture(big_csv)
 
-    def no_engine(dialect):
+    def no_engine(dialect, threads=False):
         raise ImportError("engine disabled for the test")
 
     monkeypatch.setattr(delimited, "_arrow_reader", no_engine)
