@@ -35,6 +35,12 @@ def _open_parser() -> argparse.ArgumentParser:
     return p
 
 
+def _pdf_writer(html: str, out) -> None:
+    """The report's PDF, written by Qt (imported only when a PDF is asked for)."""
+    from trueslope.app.pdf import write_pdf
+    write_pdf(html, out)
+
+
 def main(argv: list[str] | None = None) -> int:
     """Run the command; ``argv`` None means this process is the command (the terminal
     analysis then ends the process itself once its output is written)."""
@@ -47,11 +53,21 @@ def main(argv: list[str] | None = None) -> int:
         if as_program:
             leave(status)
         return status
+    if argv and argv[0] == "compare":
+        from trueslope.core.cli import leave
+        from trueslope.core.compare_cli import main as compare_main
+        status = compare_main(argv[1:], pdf_writer=_pdf_writer)
+        if as_program:
+            leave(status)
+        return status
     if argv and argv[0] in ("-h", "--help"):
-        print("usage: trueslope [open [FILE] [options]] | trueslope analyze FILE... [options]\n\n"
+        print("usage: trueslope [open [FILE] [options]] | trueslope analyze FILE... [options]\n"
+              "       | trueslope compare FILE|FOLDER... [options]\n\n"
               "  trueslope               open the bench window\n"
               "  trueslope open FILE     open the window on a capture (see 'trueslope open -h')\n"
-              "  trueslope analyze FILE  measure in the terminal (see 'trueslope analyze -h')")
+              "  trueslope analyze FILE  measure in the terminal (see 'trueslope analyze -h')\n"
+              "  trueslope compare ...   compare captures, judge limits, write a report "
+              "(see 'trueslope compare -h')")
         return 0
     if argv and argv[0] == "open":
         argv = argv[1:]

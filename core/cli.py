@@ -74,11 +74,10 @@ class OneLineParser(argparse.ArgumentParser):
         self.exit(2, f"trueslope: {one_line(message)} (see '{self.prog} -h')\n")
 
 
-def build_parser() -> OneLineParser:
-    p = OneLineParser(
-        prog="trueslope analyze",
-        description="Measure how straight the ramps of a sawtooth capture are.")
-    p.add_argument("files", nargs="+", metavar="FILE", help="capture file(s): CSV/text, .npy, .wav")
+def add_measure_options(p: argparse.ArgumentParser, reference_flag: str = "--reference") -> None:
+    """The options that say how each capture is measured: channels, window, interval and
+    the circuit context (``reference_flag`` names the option of the reference voltage,
+    which ``compare`` calls ``--reference-voltage``: its ``--reference`` is a file)."""
     p.add_argument("--channel", help="channel to measure, by name or 0-based index "
                    "(default: the first column holding a sawtooth)")
     p.add_argument("--sync-channel", help="logic-level channel marking each reset")
@@ -89,6 +88,26 @@ def build_parser() -> OneLineParser:
                    help="explicit fit window in seconds from the ramp start, e.g. 20u,480u")
     p.add_argument("--sample-interval", metavar="S",
                    help="sample interval when the file has no time column, e.g. 2u or 2e-6")
+    g = p.add_argument_group("circuit context (enables the self-check)")
+    g.add_argument("--capacitance", help="timing capacitance, e.g. 47n")
+    g.add_argument("--current", help="charging current, e.g. 1.2m")
+    g.add_argument("--set-resistor", help=f"current-setting resistor, e.g. 3.3k (with "
+                                          f"{reference_flag})")
+    g.add_argument(reference_flag, dest="reference",
+                   help="reference voltage across the set resistor, e.g. 1.25")
+    g.add_argument("--probe", help="probe loading as R,C, e.g. 10M,12p")
+    g.add_argument("--tolerance", help="tolerance of the expected figures, e.g. 10%%")
+    g.add_argument("--thresholds", metavar="LOW,HIGH",
+                   help="the comparator's reset and trip levels, e.g. 0.05,4 or -1,1 "
+                        "(default: the measured start and end levels)")
+
+
+def build_parser() -> OneLineParser:
+    p = OneLineParser(
+        prog="trueslope analyze",
+        description="Measure how straight the ramps of a sawtooth capture are.")
+    p.add_argument("files", nargs="+", metavar="FILE", help="capture file(s): CSV/text, .npy, .wav")
+    add_measure_options(p)
     p.add_argument("--json", action="store_true",
                    help="print JSON (one document for one file; for several, a list with an "
                         "error entry in place of each refused file)")
@@ -98,16 +117,6 @@ def build_parser() -> OneLineParser:
                         "pass")
     p.add_argument("--force", action="store_true",
                    help="let --cycles-csv replace an existing file (never a capture)")
-    g = p.add_argument_group("circuit context (enables the self-check)")
-    g.add_argument("--capacitance", help="timing capacitance, e.g. 47n")
-    g.add_argument("--current", help="charging current, e.g. 1.2m")
-    g.add_argument("--set-resistor", help="current-setting resistor, e.g. 3.3k (with --reference)")
-    g.add_argument("--reference", help="reference voltage across the set resistor, e.g. 1.25")
-    g.add_argument("--probe", help="probe loading as R,C, e.g. 10M,12p")
-    g.add_argument("--tolerance", help="tolerance of the expected figures, e.g. 10%%")
-    g.add_argument("--thresholds", metavar="LOW,HIGH",
-                   help="the comparator's reset and trip levels, e.g. 0.05,4 or -1,1 "
-                        "(default: the measured start and end levels)")
     return p
 
 

@@ -217,14 +217,16 @@ def _one_line(name: str, exc: BaseException) -> str:
     return text if text.startswith(name) else f"{name}: {text}"
 
 
-def measure_one(path: str, settings: Settings | None = None) -> MeasuredFile:
+def measure_one(path: str, settings: Settings | None = None,
+                sample_interval_s: float | None = None) -> MeasuredFile:
     """Hash and analyse one file; any failure becomes an error entry (never raised),
-    except :class:`Cancelled`."""
+    except :class:`Cancelled`. ``sample_interval_s`` serves a file with no time axis."""
     name = Path(path).name
     digest = None
     try:
         digest = sha256_of(path)
-        return MeasuredFile(path=path, sha256=digest, analysis=analyse_file(path, settings))
+        return MeasuredFile(path=path, sha256=digest,
+                            analysis=analyse_file(path, settings, sample_interval_s))
     except Cancelled:
         raise
     except Exception as exc:  # a bad file never stops the others
@@ -235,7 +237,8 @@ def measure_one(path: str, settings: Settings | None = None) -> MeasuredFile:
 def measure_files(paths: Iterable[str | Path],
                   settings_for: Callable[[str], Settings | None] | None = None,
                   jobs: int = 2, progress: ProgressFn | None = None,
-                  cancel: CancelFn | None = None) -> tuple[MeasuredFile, ...]:
+                  cancel: CancelFn | None = None,
+                  sample_interval_s: float | None = None) -> tuple[MeasuredFile, ...]:
     """Analyse capture files, in worker processes when ``jobs`` > 1.
 
     Parameters
@@ -252,6 +255,8 @@ def measure_files(paths: Iterable[str | Path],
     cancel : callable() -> bool, optional
         Polled between files; returning True stops the pool and raises
         :class:`Cancelled`.
+    sample_interval_s : float, optional
+        The sample interval of files with no time axis (a time axis wins).
 
     Returns
     -------
@@ -267,22 +272,22 @@ def measure_files(paths: Iterable[str | Path],
     workers = max(1, min(int(jobs), len(todo), os.cpu_count() or 1))
     if workers > 1:
         try:
-            _in_pool(todo, chosen, out, workers, report, cancel)
+            _in_pool(todo, chosen, out, workers, report, cancel, sample_interval_s)
         except (OSError, NotImplementedError, cf.BrokenExecutor):
             pass  # no processes here (a sandbox, a frozen build): the rest runs in turn
     for i, p in enumerate(todo):
         if out[i] is None:
             stop_if_cancelled(cancel)
-            out[i] = measure_one(p, chosen[i])
+            out[i] = measure_one(p, chosen[i], sample_interval_s)
             report(sum(o is not None for o in out) / len(todo))
     return tuple(out)  # type: ignore[arg-type]
 
 
 def _in_pool(todo: list[str], chosen: list[Settings | None], out: list, workers: int,
-             report: ProgressFn, cancel: CancelFn | None) -> None:
+             report: ProgressFn, cancel: CancelFn | None, dt: float | None) -> None:
     ctx = multiprocessing.get_context("spawn")
     with cf.ProcessPoolExecutor(max_workers=workers, mp_context=ctx) as pool:
-        futures = {pool.submit(measure_one, p, s): i for i, (p, s) in
+        futures = {pool.submit(measure_one, p, s, dt): i for i, (p, s) in
                    enumerate(zip(todo, chosen))}
         try:
             for fut in cf.as_completed(futures):
