@@ -21,6 +21,8 @@ def _open_parser() -> argparse.ArgumentParser:
     p.add_argument("--sync-channel", help="logic-level channel marking each reset")
     p.add_argument("--trim", type=float, help="fraction trimmed at each ramp end (0-0.4)")
     p.add_argument("--sample-interval", help="sample interval when the file has no time column, e.g. 2u")
+    p.add_argument("--session", metavar="SESSION.json",
+                   help="open a saved bench session on the comparison tab")
     p.add_argument("--screenshot", metavar="OUT.png",
                    help="render the window with the analysis finished, save it and exit")
     p.add_argument("--size", metavar="WIDTHxHEIGHT",
@@ -78,7 +80,7 @@ def main(argv: list[str] | None = None) -> int:
     from trueslope.app.launch import launch  # Qt is imported only here
     return launch(args.file, channel=args.channel, sync_channel=args.sync_channel,
                   trim=args.trim, sample_interval=args.sample_interval,
-                  screenshot=args.screenshot, size=args.size,
+                  screenshot=args.screenshot, size=args.size, session=args.session,
                   circuit={k: getattr(args, k) for k in ("capacitance", "current", "set_resistor",
                                                          "reference", "probe", "tolerance")})
 

@@ -101,6 +101,7 @@ class CommandsMixin:
                                 self.act_svg, self.act_copy,
                                 self.act_next, self.act_prev, self.act_zoom_cycle, self.act_zoom_all,
                                 self.act_reset_window]
+        self._build_bench_actions()
 
     def _build_menus(self) -> None:
         mb = self.menuBar()
@@ -115,6 +116,7 @@ class CommandsMixin:
         m.addAction(self.act_copy)
         m.addSeparator()
         m.addAction(self.act_quit)
+        self._add_bench_menu_items(m, self.act_quit)
         v = mb.addMenu("&View")
         for a in (self.act_prev, self.act_next, self.act_zoom_cycle, self.act_zoom_all, self.act_all_fits):
             v.addAction(a)

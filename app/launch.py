@@ -59,7 +59,7 @@ def make_app(argv: list[str] | None = None):
 def launch(path: str | None = None, channel: str | None = None, sync_channel: str | None = None,
            trim: float | None = None, sample_interval: str | None = None,
            screenshot: str | None = None, size: str | None = None,
-           circuit: dict[str, str | None] | None = None) -> int:
+           circuit: dict[str, str | None] | None = None, session: str | None = None) -> int:
     """Open the bench window, optionally on a capture.
 
     Parameters
@@ -80,6 +80,9 @@ def launch(path: str | None = None, channel: str | None = None, sync_channel: st
     circuit : dict, optional
         Circuit values for ``path``'s form, by keyword of
         :func:`trueslope.core.circuit.parse_context` (text as typed, e.g. ``"47n"``).
+    session : str, optional
+        A bench session to open on the comparison tab (a screenshot then waits for
+        its comparison).
 
     Returns
     -------
@@ -148,17 +151,27 @@ def launch(path: str | None = None, channel: str | None = None, sync_channel: st
             win.circuits.remember(path, circuit)
             win.tabs.setCurrentWidget(win.findings.check_page)
         win.open_file(path, channel=channel, sync_channel=sync_channel)
+    if session:
+        win.open_session(session)
     if screenshot:
-        return _screenshot(app, win, screenshot, bool(path))
+        return _screenshot(app, win, screenshot, bool(path), bool(session))
     return app.exec()
 
 
-def _screenshot(app, win, out: str, expect_analysis: bool) -> int:
-    """Wait for the analysis (or its failure), let the window paint, save it, close."""
+def _screenshot(app, win, out: str, expect_analysis: bool, expect_bench: bool = False) -> int:
+    """Wait for the analysis or the comparison (or a failure), let the window paint, save
+    it, close."""
     from PySide6 import QtCore
 
-    outcome = {"ok": not expect_analysis, "message": ""}
+    outcome = {"ok": not (expect_analysis or expect_bench), "message": ""}
     loop = QtCore.QEventLoop()
+    if expect_bench:
+        def compared(_c) -> None:
+            if all(i.measured is not None or i.changed for i in win.bench.items):
+                outcome["ok"] = True
+                QtCore.QTimer.singleShot(300, loop.quit)
+        win.bench.updated.connect(compared)
+        expect_analysis = True
 
     def shown(_analysis) -> None:
         outcome["ok"] = True
@@ -171,7 +184,7 @@ def _screenshot(app, win, out: str, expect_analysis: bool) -> int:
     win.analysis_shown.connect(shown)
     win.job_failed.connect(failed)
     win.job_cancelled.connect(lambda: failed("cancelled"))
-    if expect_analysis and win.busy:
+    if expect_analysis and (win.busy or win.bench.busy or win.tasks.busy):
         QtCore.QTimer.singleShot(SCREENSHOT_TIMEOUT_MS, loop.quit)
         loop.exec()
     for _ in range(5):  # let layouts and the plots settle

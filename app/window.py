@@ -29,6 +29,7 @@ from trueslope.core.settings import MAX_TRIM_FRACTION, Settings
 
 from . import theme
 from .banner import MessageBanner, describe_error
+from .bench_commands import BenchMixin
 from .commands import CommandsMixin
 from .fields import field_label
 from .jobs import (AnalyseRequest, JobResult, JobRunner, OpenRequest, Request, TraceData,
@@ -47,7 +48,8 @@ if TYPE_CHECKING:
     from trueslope.core.results import Analysis
 
 
-class MainWindow(CircuitMixin, NavigationMixin, CommandsMixin, QtWidgets.QMainWindow):
+class MainWindow(BenchMixin, CircuitMixin, NavigationMixin, CommandsMixin,
+                 QtWidgets.QMainWindow):
     """The trueslope bench window.
 
     Parameters
@@ -68,6 +70,7 @@ class MainWindow(CircuitMixin, NavigationMixin, CommandsMixin, QtWidgets.QMainWi
     analysis_shown = QtCore.Signal(object)
     job_failed = QtCore.Signal(str)
     job_cancelled = QtCore.Signal()
+    task_finished = QtCore.Signal(str)
 
     def __init__(self, store: Store | None = None) -> None:
         super().__init__()
@@ -149,7 +152,7 @@ class MainWindow(CircuitMixin, NavigationMixin, CommandsMixin, QtWidgets.QMainWi
         lay.setContentsMargins(6, 6, 6, 2)
         lay.setSpacing(6)
         lay.addWidget(self.banner)
-        lay.addWidget(self.main_split, 1)
+        lay.addWidget(self._build_bench(self.main_split), 1)
         self.setCentralWidget(central)
 
     def _connect(self) -> None:
@@ -449,6 +452,7 @@ class MainWindow(CircuitMixin, NavigationMixin, CommandsMixin, QtWidgets.QMainWi
 
     def closeEvent(self, event: QtGui.QCloseEvent) -> None:  # noqa: N802
         self.runner.shutdown()
+        self._shutdown_bench()
         self.store.set_geometry("geometry", self.saveGeometry())
         self.store.set_geometry("split_main", self.main_split.saveState())
         self.store.set_geometry("split_left", self.left.saveState())
