@@ -37,10 +37,11 @@ def _open_parser() -> argparse.ArgumentParser:
     return p
 
 
-def _pdf_writer(html: str, out) -> None:
-    """The report's PDF, written by Qt (imported only when a PDF is asked for)."""
+def _pdf_writer(html: str, out, force: bool = False) -> None:
+    """The report's PDF, written by Qt (imported only when a PDF is asked for); the
+    command has already refused an existing file without ``--force``."""
     from trueslope.app.pdf import write_pdf
-    write_pdf(html, out)
+    write_pdf(html, out, force)
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -58,7 +59,9 @@ def main(argv: list[str] | None = None) -> int:
     if argv and argv[0] == "compare":
         from trueslope.core.cli import leave
         from trueslope.core.compare_cli import main as compare_main
-        status = compare_main(argv[1:], pdf_writer=_pdf_writer)
+        force = "--force" in argv[1:]  # core passes no force to the writer (yet)
+        status = compare_main(argv[1:], pdf_writer=lambda html, out: _pdf_writer(html, out,
+                                                                                  force))
         if as_program:
             leave(status)
         return status
