@@ -37,11 +37,11 @@ def _open_parser() -> argparse.ArgumentParser:
     return p
 
 
-def _pdf_writer(html: str, out, force: bool = False) -> None:
+def _pdf_writer(html: str, out, force: bool = False, inputs=()) -> None:
     """The report's PDF, written by Qt (imported only when a PDF is asked for); the
     command has already refused an existing file without ``--force``."""
     from trueslope.app.pdf import write_pdf
-    write_pdf(html, out, force)
+    write_pdf(html, out, force, inputs=inputs)
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -59,9 +59,7 @@ def main(argv: list[str] | None = None) -> int:
     if argv and argv[0] == "compare":
         from trueslope.core.cli import leave
         from trueslope.core.compare_cli import main as compare_main
-        force = "--force" in argv[1:]  # core passes no force to the writer (yet)
-        status = compare_main(argv[1:], pdf_writer=lambda html, out: _pdf_writer(html, out,
-                                                                                  force))
+        status = compare_main(argv[1:], pdf_writer=_pdf_writer)
         if as_program:
             leave(status)
         return status

@@ -22,9 +22,9 @@ from .errors import TrueslopeError
 #: The capture files a folder given to ``compare`` contributes, by suffix.
 CAPTURE_SUFFIXES = (".csv", ".txt", ".tsv", ".dat", ".npy", ".wav")
 
-#: Writes a PDF from the report's HTML: supplied by the window's package (Qt's PDF writer),
-#: which core never imports itself.
-PdfWriter = Callable[[str, Path], None]
+#: Writes a PDF from the report's HTML, ``(html, out, force, inputs)``: supplied by the
+#: window's package (Qt's PDF writer), which core never imports itself.
+PdfWriter = Callable[[str, Path, bool, list], None]
 
 
 def build_parser() -> OneLineParser:
@@ -183,6 +183,6 @@ def _write_report(args: argparse.Namespace, c, entries, limits_path: str | None,
     out = Path(args.report)
     if out.suffix.lower() == ".pdf":
         assert pdf_writer is not None
-        pdf_writer(html, out)
+        pdf_writer(html, out, args.force, inputs)
     else:
         write_text_atomic(out, html, args.force, inputs=inputs)

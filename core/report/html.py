@@ -287,8 +287,46 @@ def comparison_section(analyses: Sequence[Analysis], comparison: Any = None) -> 
     out = ['<section id="comparison"><h2>Comparison</h2>', _table(header, rows),
            f'<div class="plot">{overlay_svg(_overlay_curves(analyses, comparison))}</div>']
     if comparison is not None:
-        out.append("<h3>Differences and groups</h3>" + document_html(_as_document(comparison)))
+        out.append(_comparison_tables(comparison))
     out.append("</section>")
+    return "".join(out)
+
+
+def _comparison_tables(c: Any) -> str:
+    """The comparison's ranking, differences from the reference and group statistics as
+    tables (the overlay is the plot above; its arrays stay in the JSON)."""
+    from .compare_text import TABLE_FIGURES
+    name = {e.path: Path(e.path).name for e in c.entries}
+    by_path = {e.path: e for e in c.entries}
+    rank_rows = []
+    for path in c.ranking:
+        e = by_path[path]
+        verdict = e.limits.verdict if e.limits is not None else "—"
+        rank_rows.append([esc(str(e.rank)), esc(name[path] + (" (reference)" if e.is_reference
+                                                              else "")),
+                          esc(e.group), esc(figure_text("nonlinearity_pct", e.nonlinearity_pct)
+                                            if e.status == "ok" else "not measured"),
+                          esc(e.signature or e.error_message or "—"), esc(verdict)])
+    out = ["<h3>Ranking</h3>", _table(["#", "Capture", "Group", "Nonlinearity", "Diagnosis",
+                                        "Limits"], rank_rows)]
+    diff_rows = []
+    for t in c.table:
+        cells = [esc(name.get(t.path, t.path))]
+        for d in (x for k in TABLE_FIGURES for x in t.figures if x.figure == k):
+            text = figure_text(d.figure, d.value)
+            if d.difference is not None and not by_path[t.path].is_reference:
+                text += f" ({'+' if d.difference > 0 else ''}{figure_text(d.figure, d.difference)})"
+            cells.append(esc(text))
+        diff_rows.append(cells)
+    out += ["<h3>Figures and differences from the reference</h3>",
+            _table(["Capture"] + [esc(figure_label(k)) for k in TABLE_FIGURES], diff_rows)]
+    stat_rows = [[esc(st.group), esc(figure_label(st.figure)), esc(str(st.count)),
+                  esc(figure_text(st.figure, st.mean)), esc(figure_text(st.figure, st.std)),
+                  esc(figure_text(st.figure, st.min)), esc(figure_text(st.figure, st.max))]
+                 for st in c.statistics if st.figure in TABLE_FIGURES]
+    if stat_rows:
+        out += ["<h3>Groups</h3>", _table(["Group", "Figure", "n", "Mean", "Standard deviation",
+                                            "Min", "Max"], stat_rows)]
     return "".join(out)
 
 
