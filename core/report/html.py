@@ -286,8 +286,10 @@ def comparison_section(analyses: Sequence[Analysis], comparison: Any = None) -> 
             + [esc(a.diagnosis.signature)] for a in analyses]
     out = ['<section id="comparison"><h2>Comparison</h2>', _table(header, rows),
            f'<div class="plot">{overlay_svg(_overlay_curves(analyses, comparison))}</div>']
-    if comparison is not None:
+    if comparison is not None and hasattr(comparison, "entries"):
         out.append(_comparison_tables(comparison))
+    elif comparison is not None:  # any other comparison object: its document as tables
+        out.append("<h3>Differences and groups</h3>" + document_html(_as_document(comparison)))
     out.append("</section>")
     return "".join(out)
 
