@@ -376,3 +376,36 @@ def selfcheck_summary(c: ContextCheck, diagnosis: Diagnosis | None) -> str:
             parts.append(f"The stated probe alone predicts {pct(p)} nonlinearity, against "
                          f"{pct(m)} measured: the probe does not explain the bow.")
     return " ".join(parts)
+
+
+from ..whatif import Requirements  # noqa: E402  (kept beside the one function that words it)
+
+
+def requirements_text(req: Requirements) -> list[str]:
+    """What keeps the nonlinearity at the target (``whatif.requirements``), one sentence a line."""
+    target = pct(req.target_nonlinearity_pct)
+    if req.target_met:
+        lines = [f"The measured nonlinearity, {pct(req.measured_nonlinearity_pct)}, already "
+                 f"meets the target of {target}."]
+    else:
+        lines = [f"The measured nonlinearity, {pct(req.measured_nonlinearity_pct)}, is above "
+                 f"the target of {target}."]
+    held = ("at the stated current" if req.held == "current"
+            else "with the ramp time held")
+    if req.min_shunt_ohm is not None:
+        lines.append(f"To stay within {target} {held}, everything across the capacitor "
+                     f"(source output resistance, leakage and probe in parallel) must total "
+                     f"at least {si(req.min_shunt_ohm, 'Ω')} (a time constant of at least "
+                     f"{si(req.min_time_constant_s, 's')}).")
+    else:
+        lines.append(f"To stay within {target} {held}, the time constant of everything across "
+                     f"the capacitor must be at least {si(req.min_time_constant_s, 's')}; "
+                     f"give the capacitance to have it as a resistance.")
+    if req.measured_shunt_ohm is not None:
+        lines.append(f"The shunt measured is {si(req.measured_shunt_ohm, 'Ω')}.")
+    lines.append(f"A capacitance falling with voltage may change by at most "
+                 f"{pct(100 * req.max_voltage_coefficient_per_v)} per volt over this swing.")
+    if req.max_ramp_time_s is not None:
+        lines.append(f"With the measured shunt (time constant {si(req.measured_tau_s, 's')}), "
+                     f"the ramp must last no longer than {si(req.max_ramp_time_s, 's')}.")
+    return lines
