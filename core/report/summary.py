@@ -9,7 +9,8 @@ from ..results import Analysis
 from .numbers import FIGURE_GROUPS, FIGURES
 from .numbers import figure_text as ft
 from .numbers import pct, si
-from .prose import explanation, likely_cause, next_checks, selfcheck_summary, strength_words
+from .prose import (explanation, likely_cause, next_checks, requirements_text,
+                    selfcheck_summary, strength_words)
 
 
 def _jitter(jitter_s: float, dt_s: float) -> str:
@@ -98,11 +99,26 @@ def diagnosis_line(a: Analysis) -> str:
     return f"{d.signature} ({d.curvature}; {strength_words(d.strength)}{tau}{shunt}{vc_txt})"
 
 
+def what_it_takes_lines(a: Analysis) -> list[str]:
+    """For a bowed ramp, what would keep it within the default target (``whatif``);
+    nothing for a straight one or where the figures cannot say."""
+    if a.diagnosis.signature == "linear" or not a.figures.nonlinearity_pct > 0:
+        return []
+    from ..errors import TrueslopeError
+    from ..whatif import requirements
+    try:
+        req = requirements(a.figures, a.diagnosis, a.settings.context)
+    except (TrueslopeError, ArithmeticError, ValueError):
+        return []
+    return ["What it would take:"] + [f"  {line}" for line in requirements_text(req)]
+
+
 def findings_lines(a: Analysis) -> list[str]:
     """Diagnosis and self-check lines of the summary."""
     d = a.diagnosis
     out = [f"  Diagnosis: {diagnosis_line(a)}", f"    {explanation(d)}"]
     out += [f"    - {step}" for step in next_checks(d)]
+    out += [f"  {line}" for line in what_it_takes_lines(a)]
     c = a.context_check
     if c is not None:
         out.append("  Self-check against the stated circuit")

@@ -190,3 +190,21 @@ def test_requirements_text_words_every_figure():
     assert "time constant" in no_c and "MΩ" not in no_c
     d = requirements(figures(), SHUNT, None, 0.1).to_dict()
     assert d["min_shunt_ohm"] is None and isinstance(d["max_voltage_coefficient_per_v"], float)
+
+
+def test_the_terminal_summary_says_what_it_would_take_for_a_bowed_ramp_only():
+    # the shunt-loaded ramp of SOURCES.md [loading] (1 Mohm across 10 nF) and a straight one
+    import math as _m
+
+    from trueslope.core.analysis import analyse
+    from trueslope.core.report import summary_text
+    from tests.support.builders import capture_from_cycles
+    tau, vinf, v0, v1 = 1e-2, 100.0, 0.05, 4.0
+    T = tau * _m.log((vinf - v0) / (vinf - v1))
+    bowed = capture_from_cycles([(T, lambda t: vinf - (vinf - v0) * np.exp(-t / tau))] * 10,
+                                T / 1000.37, bits=12, noise_v=5e-4, seed=3)
+    text = summary_text(analyse(bowed))
+    assert "What it would take:" in text and "is above the target of 0.100 %" in text
+    straight = capture_from_cycles([(1e-3, lambda t: 0.05 + 4e3 * t)] * 10, 1e-3 / 1000.37,
+                                   bits=12, noise_v=5e-4, seed=4)
+    assert "What it would take:" not in summary_text(analyse(straight))
