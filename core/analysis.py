@@ -231,27 +231,8 @@ def analyse(capture: Capture, settings: Settings | None = None,
 
 def _analyse(capture: Capture, settings: Settings, progress: ProgressFn | None,
              cancel: CancelFn | None) -> Analysis:
-    """Measure the linearity of every ramp cycle of a capture.
-
-    Parameters
-    ----------
-    capture : Capture
-        The record (from :func:`trueslope.core.io.load_capture` or built in memory).
-    settings : Settings, optional
-        Fit window, channel choice, circuit context; defaults documented there.
-    progress : callable(float), optional
-        Called with the fraction done, 0 to 1.
-    cancel : callable() -> bool, optional
-        Polled between blocks; returning True raises :class:`Cancelled`.
-
-    Returns
-    -------
-    Analysis
-
-    Raises
-    ------
-    NotASawtoothError, NoFullCycleError, AnalysisError, ChannelNotFoundError, Cancelled
-    """
+    """The measurement itself, without :func:`analyse`'s guards (numpy quiet, the file
+    named in every refusal, finite headline figures)."""
     report = progress or (lambda f: None)
     report(0.0)
     name, v, seg = _pick_channel(capture, settings, cancel)
