@@ -54,6 +54,7 @@ model is ``noise``'s; the shapes are ``shapes``'s.
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 
 import numpy as np
 from numpy.polynomial import legendre
@@ -142,42 +143,13 @@ def diagnose(averaged: AveragedCycle, figures: Figures, noise: NoiseFloor,
     -----
     Models, criterion and decision rules are in the module docstring.
     """
-    inw = np.asarray(averaged.in_window, dtype=bool)
-    t = np.asarray(averaged.time_s, dtype=float)[inw]
-    y = np.asarray(averaged.measured_v, dtype=float)[inw]
-    se = np.asarray(averaged.stderr_v, dtype=float)[inw]
-    ok = np.isfinite(t) & np.isfinite(y)
-    t, y, se = t[ok], y[ok], se[ok]
-    T = float(averaged.ramp_time_s) if averaged.ramp_time_s > 0 else float(figures.ramp_time_s)
-    span = float(figures.fitted_span_v) if math.isfinite(figures.fitted_span_v) else math.nan
-    if not (t.size >= 8 and T > 0 and span > 0):
-        return _not_measurable(t.size, "not-measurable")
-    floor_pct = noise.nonlinearity_floor_pct
-    if not math.isfinite(floor_pct):
-        return _not_measurable(t.size, "not-measurable")
-    floor_pct = max(floor_pct, MIN_FLOOR_PCT)
+    data = window_data(averaged, figures, noise)
+    if data is None:
+        n = int(np.count_nonzero(np.asarray(averaged.in_window, dtype=bool)))
+        return _not_measurable(n, "not-measurable")
+    t, y, se, T, span, floor_pct = (data.time_s, data.voltage_v, data.stderr_v,
+                                    data.ramp_time_s, data.span_v, data.floor_pct)
     floor_v = floor_pct * span / 100.0
-    good = np.isfinite(se) & (se > 0)
-    fill = float(np.median(se[good])) if np.any(good) else floor_v
-    se = np.where(good, se, fill)
-    # Each bin's spread comes from few cycles, so its variance is itself noisy and
-    # a bin that happens to look quiet would dominate the fit. The noise of one
-    # sample varies slowly along a ramp: average it over neighbouring bins.
-    cnt = np.asarray(averaged.count, dtype=float)[inw][ok]
-    cnt = np.where(np.isfinite(cnt) & (cnt > 0), cnt, 1.0)
-    per_sample = se * se * cnt
-    k = int(min(max(NOISE_SMOOTH_BINS, se.size // 20), se.size))
-    se = np.sqrt(ndimage.uniform_filter1d(per_sample, k, mode="nearest") / cnt)
-    # Structure repeated in every cycle (a quantisation pattern locked to the sample
-    # clock) is not in the cycle-to-cycle spread; where the averaged curve scatters
-    # about its smoothed self more than the standard errors say, widen them to match.
-    se = se * max(1.0, _scatter_ratio(y, se))
-    # Noise correlated from bin to bin (a bandwidth limit, bins finer than the
-    # noise's correlation time) averages down more slowly than the chi-square
-    # assumes; widen the errors by the variance inflation seen at longer scales.
-    se = se * math.sqrt(_correlation_inflation(t / T, y, se))
-    # a simulated, noise-free capture would give standard errors of zero
-    se = np.maximum(se, 1e-8 * span)
     x = t / T
     bin_width = float(np.median(np.diff(x))) if x.size > 1 else 1.0
     x_start = float(averaged.window_start_s) / T
@@ -244,6 +216,66 @@ def diagnose(averaged: AveragedCycle, figures: Figures, noise: NoiseFloor,
                      shape=_shape(x, y, fits, span), unexplained_pct=100.0 * unexplained / span,
                      **nearest, **common)
 
+
+
+@dataclass(frozen=True)
+class WindowData:
+    """The averaged cycle's bins inside the fit window, as the models are fitted to them.
+
+    ``time_s`` from the ramp start, ``voltage_v`` in the measurement frame,
+    ``stderr_v`` made robust (module docstring); ``ramp_time_s``; ``span_v`` the
+    fitted span; ``floor_pct`` the resolution floor (at least :data:`MIN_FLOOR_PCT`).
+    """
+
+    time_s: np.ndarray
+    voltage_v: np.ndarray
+    stderr_v: np.ndarray
+    ramp_time_s: float
+    span_v: float
+    floor_pct: float
+
+
+def window_data(averaged: AveragedCycle, figures: Figures,
+                noise: NoiseFloor) -> WindowData | None:
+    """The bins the models are fitted to, with robust standard errors; None when the
+    window holds fewer than 8 usable bins or the span or floor is not finite."""
+    inw = np.asarray(averaged.in_window, dtype=bool)
+    t = np.asarray(averaged.time_s, dtype=float)[inw]
+    y = np.asarray(averaged.measured_v, dtype=float)[inw]
+    se = np.asarray(averaged.stderr_v, dtype=float)[inw]
+    ok = np.isfinite(t) & np.isfinite(y)
+    t, y, se = t[ok], y[ok], se[ok]
+    T = float(averaged.ramp_time_s) if averaged.ramp_time_s > 0 else float(figures.ramp_time_s)
+    span = float(figures.fitted_span_v) if math.isfinite(figures.fitted_span_v) else math.nan
+    if not (t.size >= 8 and T > 0 and span > 0):
+        return None
+    floor_pct = noise.nonlinearity_floor_pct
+    if not math.isfinite(floor_pct):
+        return None
+    floor_pct = max(floor_pct, MIN_FLOOR_PCT)
+    floor_v = floor_pct * span / 100.0
+    good = np.isfinite(se) & (se > 0)
+    fill = float(np.median(se[good])) if np.any(good) else floor_v
+    se = np.where(good, se, fill)
+    # Each bin's spread comes from few cycles, so its variance is itself noisy and
+    # a bin that happens to look quiet would dominate the fit. The noise of one
+    # sample varies slowly along a ramp: average it over neighbouring bins.
+    cnt = np.asarray(averaged.count, dtype=float)[inw][ok]
+    cnt = np.where(np.isfinite(cnt) & (cnt > 0), cnt, 1.0)
+    per_sample = se * se * cnt
+    k = int(min(max(NOISE_SMOOTH_BINS, se.size // 20), se.size))
+    se = np.sqrt(ndimage.uniform_filter1d(per_sample, k, mode="nearest") / cnt)
+    # Structure repeated in every cycle (a quantisation pattern locked to the sample
+    # clock) is not in the cycle-to-cycle spread; where the averaged curve scatters
+    # about its smoothed self more than the standard errors say, widen them to match.
+    se = se * max(1.0, _scatter_ratio(y, se))
+    # Noise correlated from bin to bin (a bandwidth limit, bins finer than the
+    # noise's correlation time) averages down more slowly than the chi-square
+    # assumes; widen the errors by the variance inflation seen at longer scales.
+    se = se * math.sqrt(_correlation_inflation(t / T, y, se))
+    # a simulated, noise-free capture would give standard errors of zero
+    se = np.maximum(se, 1e-8 * span)
+    return WindowData(t, y, se, T, span, floor_pct)
 
 def _scatter_ratio(y: np.ndarray, se: np.ndarray) -> float:
     """Excess scatter of the averaged curve about its own smoothing (``noise.excess_scatter``)."""
