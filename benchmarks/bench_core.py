@@ -75,7 +75,9 @@ def sawtooth(n: int, samples_per_cycle: float = 1000.37, seed: int = 7,
     """
     start, stop = chunk if chunk is not None else (0, n)
     dt = 1e-6
-    i_a, c_f, r_ohm, v_lo, v_hi = 100e-6, 33e-9, 10e6, 1.0, 4.0
+    # 33 nF at 1000.37 samples a cycle; scaled with the period, so the ramp always takes
+    # the same share of it
+    i_a, c_f, r_ohm, v_lo, v_hi = 100e-6, 33e-9 * samples_per_cycle / 1000.37, 10e6, 1.0, 4.0
     tau, v_inf = r_ohm * c_f, i_a * r_ohm
     ramp_s = tau * np.log((v_inf - v_lo) / (v_inf - v_hi))
     period_s = samples_per_cycle * dt

@@ -4,8 +4,8 @@ Calls only, one module per step::
 
     segment.segment (spikes bridged, clipping noted) -> fit.cycle_pass
     -> steady.steady_state (an unsteady start or end left out)
-    -> linearity.build_cycles (outliers marked) -> fit.cycle_pass again when cycles were
-    left out -> linearity.average_cycle -> linearity.sweep_errors -> linearity.summarise
+    -> linearity.build_cycles (outliers marked) -> fit.cycle_pass over the cycles left
+    out, their sums taken away -> linearity.average_cycle -> linearity.sweep_errors -> linearity.summarise
     -> diagnose.diagnose -> selfcheck.check_context
 """
 
@@ -24,7 +24,7 @@ from .capture import (MAX_ABS_VOLTS, SAMPLE_INTERVAL_RANGE_S, CancelFn, Capture,
 from .diagnose import diagnose
 from .errors import (AnalysisError, Cancelled, NoFullCycleError, NotASawtoothError,
                      TrueslopeError, TrueslopeWarning)
-from .fit import cycle_pass
+from .fit import cycle_pass, without
 from .linearity import average_cycle, build_cycles, floor_groups, summarise, sweep_errors
 from .noise import adc_step, estimate_noise_rms
 from .results import Analysis, Figures, Segmentation
@@ -260,11 +260,14 @@ def _analyse(capture: Capture, settings: Settings, progress: ProgressFn | None,
     bins = phase_bins_for(float(np.mean(seg.ramp_time_s)) / dt, settings)
     trim, window = settings.trim_fraction, settings.window_s
 
-    def kernel(s: Segmentation, lo: float, span: float):
+    def kernel(s: Segmentation, lo: float, span: float, member: np.ndarray | None = None):
         return cycle_pass(x, dt, t0, s, trim, window, bins, limits_s=limits, cancel=cancel,
-                          progress=lambda f: report(lo + span * f),
-                          groups=floor_groups(s.ramp_start_s.size))
+                          progress=lambda f: report(lo + span * f), groups=groups,
+                          member=member)
 
+    seg_all = seg
+    n_all = seg.ramp_start_s.size
+    groups = floor_groups(n_all)
     cyc, sums = kernel(seg, 0.15, 0.6)
     noise_v, step = estimate_noise_rms(x), adc_step(v)
     steady = steady_state(x, dt, t0, seg, cyc, noise_v, step)
@@ -272,7 +275,7 @@ def _analyse(capture: Capture, settings: Settings, progress: ProgressFn | None,
                               unsteady_end_s=steady.end_s)
     cyc_all = subset_cycles(cyc, steady.keep)
     cycles = build_cycles(cyc_all, seg, -1.0 if mirrored else 1.0, dt)
-    keep = ~np.array([c.outlier for c in cycles], dtype=bool)
+    keep = ~cycles.outlier
     n_out = int(np.count_nonzero(~keep))
     if not (n_out and np.count_nonzero(keep) >= 2):
         keep = np.ones(len(cycles), dtype=bool)
@@ -282,17 +285,25 @@ def _analyse(capture: Capture, settings: Settings, progress: ProgressFn | None,
         if np.count_nonzero(keep & ~by_hand) < 1:
             raise AnalysisError("every cycle is left out: keep at least one")
         keep &= ~by_hand
-        cycles = tuple(dataclasses.replace(c, excluded=True) if by_hand[c.index] else c
-                       for c in cycles)
-    if not np.all(steady.keep) or not np.all(keep):
+        cycles = cycles.with_excluded(by_hand)
+    kept = np.flatnonzero(steady.keep)[keep]  # places in the whole record's list
+    if kept.size < n_all:
         # outlying cycles (a false trigger, a glitch) and unsteady ones would bend the
-        # coherent average: average the others; outliers stay in the cycle list, marked
-        sub = dataclasses.replace(seg, ramp_start_s=seg.ramp_start_s[keep],
-                                  ramp_end_s=seg.ramp_end_s[keep],
-                                  retrace_end_s=seg.retrace_end_s[keep])
-        cyc, sums = kernel(sub, 0.75, 0.15)
-    else:
-        cyc = cyc_all
+        # coherent average: average the others; outliers stay in the cycle list, marked.
+        # Each cycle's sums are its own, so the few left out are summed again and taken
+        # away (each keeps its group, so the groups stay interleaved across the record)
+        gone = np.ones(n_all, dtype=bool)
+        gone[kept] = False
+        part = gone if np.count_nonzero(gone) <= kept.size else ~gone
+        sub = dataclasses.replace(seg_all, ramp_start_s=seg_all.ramp_start_s[part],
+                                  ramp_end_s=seg_all.ramp_end_s[part],
+                                  retrace_end_s=seg_all.retrace_end_s[part])
+        _, some = kernel(sub, 0.75, 0.15, np.flatnonzero(part) % groups)
+        sums = without(sums, some) if part is gone else some
+        if floor_groups(kept.size) == 1:
+            sums = dataclasses.replace(sums, group_count=None, group_voltage_v=None,
+                                       group_phase=None)
+    cyc = subset_cycles(cyc_all, keep)
     av, noise = average_cycle(sums, float(np.mean(seg.ramp_time_s[keep])), trim, window,
                               mirrored, noise_v, step, limits_s=limits)
     bounds: tuple[str, ...] = ()

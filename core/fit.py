@@ -9,17 +9,19 @@ reference-line conventions of IEEE Std 1241 (SOURCES.md [ieee1241]).
 from __future__ import annotations
 
 import math
+from dataclasses import fields
 
 import numpy as np
 from numpy.polynomial import legendre
-from scipy import stats
 
 from .capture import CancelFn, ProgressFn, stop_if_cancelled
 from .errors import AnalysisError
 from .results import CycleArrays, LineFit, PhaseSums, Segmentation
+from .tquantile import t_quantile_975
 
-#: Samples handled per vectorised block of the kernel: bounds the working memory.
-BLOCK_SAMPLES = 1_000_000
+#: Samples handled per vectorised block of the kernel: a block's dozen working arrays
+#: (512 KiB each) stay in the processor's cache.
+BLOCK_SAMPLES = 1 << 16
 #: Fraction of the ramp at each end used for the start and end levels.
 LEVEL_FRACTION = 0.03
 
@@ -69,7 +71,7 @@ def fit_line(t_s: np.ndarray, v: np.ndarray, weights: np.ndarray | None = None) 
     s2 = ssr / dof
     se_b = float(np.sqrt(s2 / sxx))
     se_a = float(np.sqrt(s2 * (1.0 / n_eff + tm * tm / sxx)))
-    tq = float(stats.t.ppf(0.975, dof))
+    tq = float(t_quantile_975(dof))
     return LineFit(slope_v_per_s=b, intercept_v=a, slope_stderr_v_per_s=se_b,
                    intercept_stderr_v=se_a, slope_ci95_v_per_s=(b - tq * se_b, b + tq * se_b),
                    residual_rms_v=float(np.sqrt(ssr / n_eff)), n=int(t.size))
@@ -152,7 +154,8 @@ def cycle_pass(x: np.ndarray, dt: float, t0: float, seg: Segmentation, trim: flo
                window_s: tuple[float, float] | None, bins: int,
                progress: ProgressFn | None = None, cancel: CancelFn | None = None,
                limits_s: tuple[float | None, float | None] | None = None,
-               groups: int = 1) -> tuple[CycleArrays, PhaseSums]:
+               groups: int = 1, member: np.ndarray | None = None
+               ) -> tuple[CycleArrays, PhaseSums]:
     """Fit every cycle and accumulate the phase-binned average, block by block.
 
     Parameters
@@ -170,6 +173,9 @@ def cycle_pass(x: np.ndarray, dt: float, t0: float, seg: Segmentation, trim: flo
     groups : int
         Also sum the samples by phase bin in this many interleaved groups of cycles
         (cycle ``c`` in group ``c % groups``), for the resolution floor.
+    member : ndarray of int, optional
+        Each cycle's group instead of ``c % groups`` (the cycles' places in a longer
+        list, so that sums over a few of them can be subtracted from the list's).
 
     Returns
     -------
@@ -179,10 +185,12 @@ def cycle_pass(x: np.ndarray, dt: float, t0: float, seg: Segmentation, trim: flo
 
     Notes
     -----
-    Each cycle's line is ordinary least squares in sample-index units from
-    prefix sums (any sum over a contiguous range is a difference of two
-    entries): with ``L`` samples, ``Sxx = L (L^2 - 1) / 12``, slope
-    ``Sxy / Sxx``, ``SSR = Syy - L ybar^2 - b Sxy``, slope standard error
+    Each cycle's line is ordinary least squares in sample-index units from two
+    sums over its window, ``Sy = sum y`` and ``Sjy = sum j y``
+    (``numpy.add.reduceat``), and the closed forms of the index sums: with ``L``
+    samples, ``Sxx = L (L^2 - 1) / 12``, ``Sxy = Sjy - jbar Sy``, slope
+    ``Sxy / Sxx``. The residual sum of squares and the largest residuals are
+    direct sums and maxima of the residuals themselves, slope standard error
     ``sqrt(SSR / (L - 2) / Sxx) / dt``.
     """
     rs = seg.ramp_start_s
@@ -203,126 +211,163 @@ def cycle_pass(x: np.ndarray, dt: float, t0: float, seg: Segmentation, trim: flo
     if np.any(w1 - w0 < 3):
         raise AnalysisError("the fit window holds fewer than 3 samples of a ramp; "
                             "widen the window or lower the trim fraction")
-    out = {k: np.zeros(nc) for k in ("slope", "intercept", "se", "dof", "peak", "tpeak",
-                                      "span", "tspan", "start", "end", "ssr", "nwin")}
-    acc = {k: np.zeros(bins + 1) for k in ("n", "u", "y", "r", "rr")}
-    grouped = groups > 1
-    # interleaved (cycle c in group c % groups), so each group spans the whole record and
-    # keeps the regular advance of the sampling phase from cycle to cycle that the whole
-    # average has
-    member = np.arange(nc) % groups if grouped else None
-    g_n = np.zeros(groups * (bins + 1)) if grouped else None
-    g_y = np.zeros(groups * (bins + 1)) if grouped else None
-    g_u = np.zeros(groups * (bins + 1)) if grouped else None
-    # blocks of about an eighth of the record (at most BLOCK_SAMPLES) keep the working
-    # memory a small multiple of the record on short and long captures alike
-    block = int(min(BLOCK_SAMPLES, max(50_000, x.size // 8)))
+    if member is None:
+        # interleaved (cycle c in group c % groups), so each group spans the whole record
+        # and keeps the regular advance of the sampling phase from cycle to cycle that the
+        # whole average has
+        member = np.arange(nc) % groups
+    width = bins + 1  # each group's bins and a spare one that takes the retrace samples
+    out = {k: np.empty(nc) for k in ("slope", "intercept", "se", "peak", "tpeak", "tspan",
+                                      "start", "end", "ssr")}
+    acc = {k: np.zeros(groups * width) for k in ("n", "u", "y", "r", "rr")}
+    # Blocks of whole cycles small enough that the dozen arrays of a block stay in the
+    # processor's cache: every pass over a block then reads the cache, not memory.
+    block = max(BLOCK_SAMPLES, 1)
+    kk_all = np.arange(int(min(x.size, block + int(np.max(r1 - r0)))) + 1, dtype=float)
+    shown = 0.0
     c0 = 0
     while c0 < nc:
         stop_if_cancelled(cancel)
         c1 = int(np.searchsorted(r1, r0[c0] + block, side="right"))
         c1 = min(max(c1, c0 + 1), nc)
-        sl = slice(c0, c1)
-        base = int(r0[c0])
-        stop = int(r1[c1 - 1])
-        xs = x[base:stop]
-        m = xs.size
-        kk = np.arange(m, dtype=float)
-        # prefix sums: any sum over a contiguous range is a difference of two entries
-        cy = np.zeros(m + 1)
-        cky = np.zeros(m + 1)
-        cyy = np.zeros(m + 1)
-        np.cumsum(xs, out=cy[1:])
-        np.cumsum(kk * xs, out=cky[1:])
-        np.cumsum(xs * xs, out=cyy[1:])
-        a_ = w0[sl] - base
-        b_ = w1[sl] - base
-        L = (b_ - a_).astype(float)
-        sy = cy[b_] - cy[a_]
-        sky = cky[b_] - cky[a_]
-        syy = cyy[b_] - cyy[a_]
-        ybar = sy / L
-        kbar = 0.5 * (a_ + b_ - 1)
-        sxx_k = L * (L * L - 1.0) / 12.0
-        sxy_k = sky - kbar * sy
-        bk = sxy_k / sxx_k  # volts per sample
-        ssr = np.maximum(syy - L * ybar * ybar - bk * sxy_k, 0.0)
-        s0 = ps[sl] - base  # fractional ramp start, block samples
-        # per-sample cycle id over ramp + retrace: cycle c owns [r0_c, r0_c+1)
-        starts = r0[sl] - base
-        lens = np.diff(np.append(starts, m))
-        cid = np.repeat(np.arange(c1 - c0), lens)
-        bk_s = bk[cid]
-        r = xs - (ybar - bk * kbar)[cid]
-        r -= bk_s * kk
-        absr = np.empty(m + 1)
-        np.abs(r, out=absr[:m])
-        absr[m] = 0.0
-        inter = np.empty(2 * (c1 - c0), dtype=np.int64)
-        inter[0::2] = a_
-        inter[1::2] = b_
-        out["peak"][sl] = np.maximum.reduceat(absr, inter)[0::2]
-        # terminal line through the means of the first and last h window samples
-        h = np.maximum(1, (b_ - a_) // 50)
-        hy = (cy[a_ + h] - cy[a_]) / h
-        hk = a_ + 0.5 * (h - 1)
-        ty = (cy[b_] - cy[b_ - h]) / h
-        tk = b_ - 1 - 0.5 * (h - 1)
-        bt = (ty - hy) / np.where(tk != hk, tk - hk, np.inf)
-        # the terminal residual is the best-fit one plus the gap between the two lines
-        rt = r + (ybar - bk * kbar - (hy - bt * hk))[cid]
-        rt += (bk - bt)[cid] * kk
-        np.abs(rt, out=absr[:m])
-        out["tpeak"][sl] = np.maximum.reduceat(absr, inter)[0::2]
-        out["tspan"][sl] = bt * (wb[sl] - wa[sl]) / dt
-        # start and end levels: local means near the ramp ends, moved to the ends along the slope
-        e0 = r0[sl] - base
-        e1 = r1[sl] - base
-        g = np.maximum(2, np.round(LEVEL_FRACTION * (e1 - e0)).astype(np.int64))
-        ms = (cy[e0 + g] - cy[e0]) / g
-        me = (cy[e1] - cy[e1 - g]) / g
-        out["start"][sl] = ms - bk * (e0 + 0.5 * (g - 1) - s0)
-        out["end"][sl] = me + bk * ((pe[sl] - base) - (e1 - 1 - 0.5 * (g - 1)))
-        out["slope"][sl] = bk / dt
-        out["intercept"][sl] = ybar - bk * (kbar - s0)
-        out["dof"][sl] = L - 2
-        out["se"][sl] = np.sqrt(ssr / np.maximum(L - 2, 1) / sxx_k) / dt
-        out["span"][sl] = bk / dt * (wb[sl] - wa[sl])
-        out["ssr"][sl] = ssr
-        out["nwin"][sl] = L
-        # phase-binned accumulation of every ramp sample; retrace samples go to a spare bin
-        inv = 1.0 / (T[sl] / dt)
-        u = kk * inv[cid]
-        u -= (s0 * inv)[cid]
-        bi = (u * bins).astype(np.int64)
-        np.minimum(bi, bins - 1, out=bi)
-        # past its ramp's end (u > 1) a sample belongs to the retrace: the spare bin
-        bi[u > 1.0] = bins
-        acc["n"] += np.bincount(bi, minlength=bins + 1)
-        acc["u"] += np.bincount(bi, u, bins + 1)
-        acc["y"] += np.bincount(bi, xs, bins + 1)
-        acc["r"] += np.bincount(bi, r, bins + 1)
-        acc["rr"] += np.bincount(bi, r * r, bins + 1)
-        if grouped:
-            gi = bi + (member[c0:c1] * (bins + 1))[cid]
-            g_n += np.bincount(gi, minlength=groups * (bins + 1))
-            g_y += np.bincount(gi, xs, groups * (bins + 1))
-            g_u += np.bincount(gi, u, groups * (bins + 1))
+        _block(x, int(r0[c0]), int(r1[c1 - 1]), slice(c0, c1), r0, r1, w0, w1, ps, pe, T / dt,
+               member[c0:c1] * width, bins, kk_all, out, acc)
         c0 = c1
-        if progress is not None:
-            progress(c1 / nc)
-    sums = PhaseSums(count=acc["n"][:bins], phase=acc["u"][:bins], voltage_v=acc["y"][:bins],
-                     residual_v=acc["r"][:bins], residual_sq_v2=acc["rr"][:bins],
-                     group_count=None if g_n is None else g_n.reshape(groups, bins + 1)[:, :bins],
-                     group_voltage_v=None if g_y is None else
-                     g_y.reshape(groups, bins + 1)[:, :bins],
-                     group_phase=None if g_u is None else g_u.reshape(groups, bins + 1)[:, :bins])
-    cyc = CycleArrays(ramp_start_s=rs, ramp_time_s=T, slope_v_per_s=out["slope"],
-                      intercept_v=out["intercept"], slope_stderr_v_per_s=out["se"],
-                      dof=out["dof"], peak_deviation_v=out["peak"],
-                      terminal_peak_v=out["tpeak"], fitted_span_v=out["span"],
-                      terminal_span_v=out["tspan"], start_v=out["start"], end_v=out["end"],
-                      ssr_v2=out["ssr"], window_samples=out["nwin"])
+        if progress is not None and (c1 / nc - shown >= 0.01 or c1 == nc):
+            shown = c1 / nc  # a call a percent, however many blocks
+            progress(shown)
+    L = (w1 - w0).astype(float)
+    span = wb - wa
+    sxx_k = L * (L * L - 1.0) / 12.0
+    se = np.sqrt(out["ssr"] / np.maximum(L - 2, 1) / sxx_k) / dt
+    g = {k: a.reshape(groups, width)[:, :bins] for k, a in acc.items()}
+    grouped = groups > 1
+    sums = PhaseSums(count=g["n"].sum(axis=0), phase=g["u"].sum(axis=0),
+                     voltage_v=g["y"].sum(axis=0), residual_v=g["r"].sum(axis=0),
+                     residual_sq_v2=g["rr"].sum(axis=0),
+                     group_count=g["n"] if grouped else None,
+                     group_voltage_v=g["y"] if grouped else None,
+                     group_phase=g["u"] if grouped else None)
+    slope = out["slope"] / dt
+    cyc = CycleArrays(ramp_start_s=rs, ramp_time_s=T, slope_v_per_s=slope,
+                      intercept_v=out["intercept"], slope_stderr_v_per_s=se,
+                      dof=L - 2, peak_deviation_v=out["peak"],
+                      terminal_peak_v=out["tpeak"], fitted_span_v=slope * span,
+                      terminal_span_v=out["tspan"] * span / dt, start_v=out["start"],
+                      end_v=out["end"], ssr_v2=out["ssr"], window_samples=L)
     return cyc, sums
 
 
+def without(sums: PhaseSums, part: PhaseSums) -> PhaseSums:
+    """The phase sums of a set of cycles less those of some of them (``part``, from
+    :func:`cycle_pass` over those cycles with the same bins, groups and membership)."""
+    def less(a, b):
+        return None if a is None or b is None else a - b
+    return PhaseSums(*(less(getattr(sums, f.name), getattr(part, f.name))
+                       for f in fields(PhaseSums)))
+
+
+def _window_reduce(ufunc, values: np.ndarray, cuts: np.ndarray) -> np.ndarray:
+    """``ufunc`` over each window ``[cuts[2c], cuts[2c + 1])`` of ``values``.
+
+    ``reduceat`` reduces from each cut to the next and the last cut to the end, so a
+    final cut at the end of ``values`` is dropped: its window then runs to the end."""
+    if cuts[-1] >= values.size:
+        cuts = cuts[:-1]
+    return ufunc.reduceat(values, cuts)[0::2]
+
+
+def _stretch_means(xs: np.ndarray, a: np.ndarray, b: np.ndarray, h: np.ndarray
+                   ) -> tuple[np.ndarray, np.ndarray]:
+    """Means of the first and of the last ``h`` samples of each ``[a, b)`` (``2 h <= b - a``)."""
+    cuts = np.empty(4 * a.size, dtype=np.int64)
+    cuts[0::4] = a
+    cuts[1::4] = a + h
+    cuts[2::4] = b - h
+    cuts[3::4] = b
+    if cuts[-1] >= xs.size:
+        cuts = cuts[:-1]
+    s = np.add.reduceat(xs, cuts)
+    return s[0::4] / h, s[2::4] / h
+
+
+def _block(x: np.ndarray, base: int, stop: int, sl: slice, r0, r1, w0, w1, ps, pe,
+           ramp_samples: np.ndarray, offset: np.ndarray, bins: int, kk_all: np.ndarray,
+           out: dict, acc: dict) -> None:
+    """One block of :func:`cycle_pass`: the cycles ``sl``, samples ``base`` to ``stop``.
+
+    Per-cycle values reach the samples by ``numpy.repeat`` over each cycle's run of
+    samples (its ramp and the retrace after it), never by gathers."""
+    xs = x[base:stop]
+    m = xs.size
+    kk = kk_all[:m]
+    e0 = r0[sl] - base
+    e1 = r1[sl] - base
+    a_ = w0[sl] - base
+    b_ = w1[sl] - base
+    n = e0.size
+    owns = np.diff(e0, append=m)  # cycle c owns its ramp and the retrace up to the next ramp
+    cuts = np.empty(2 * n, dtype=np.int64)
+    cuts[0::2] = a_
+    cuts[1::2] = b_
+    # the line over each window: Sy and Sjy over the window, the index sums in closed form
+    L = (b_ - a_).astype(float)
+    sy = _window_reduce(np.add, xs, cuts)
+    sjy = _window_reduce(np.add, kk * xs, cuts)
+    kbar = a_ + 0.5 * (L - 1.0)
+    bk = (sjy - kbar * sy) / (L * (L * L - 1.0) / 12.0)  # volts per sample
+    ybar = sy / L
+    at0 = ybar - bk * kbar  # the line's value at block sample 0
+    r = xs - np.repeat(at0, owns)
+    r -= np.repeat(bk, owns) * kk
+    rr = r * r
+    out["ssr"][sl] = _window_reduce(np.add, rr, cuts)
+    out["peak"][sl] = _window_reduce(np.maximum, np.abs(r), cuts)
+    # short stretches: the terminal line's ends, the start and end levels (each stretch
+    # lies inside its window or ramp, so the cuts stay in order)
+    h = np.maximum(1, (b_ - a_) // 50)
+    hy, ty = _stretch_means(xs, a_, b_, h)
+    hk = a_ + 0.5 * (h - 1)
+    tk = b_ - 1 - 0.5 * (h - 1)
+    # terminal line through the means of the first and last h window samples
+    bt = (ty - hy) / np.where(tk != hk, tk - hk, np.inf)
+    rt = xs - np.repeat(hy - bt * hk, owns)
+    rt -= np.repeat(bt, owns) * kk
+    out["tpeak"][sl] = _window_reduce(np.maximum, np.abs(rt, out=rt), cuts)
+    s0 = ps[sl] - base  # fractional ramp start, block samples
+    out["tspan"][sl] = bt
+    # start and end levels: local means near the ramp ends, moved to the ends along the slope
+    g = np.maximum(2, np.round(LEVEL_FRACTION * (e1 - e0)).astype(np.int64))
+    ms, me = _stretch_means(xs, e0, e1, g)
+    out["start"][sl] = ms - bk * (e0 + 0.5 * (g - 1) - s0)
+    out["end"][sl] = me + bk * ((pe[sl] - base) - (e1 - 1 - 0.5 * (g - 1)))
+    out["slope"][sl] = bk
+    out["intercept"][sl] = ybar - bk * (kbar - s0)
+    # phase u = (k - s0) / ramp samples of every ramp sample, binned; each cycle's retrace
+    # goes to its group's spare bin (u pinned past the end), so no sample needs a mask
+    inv = 1.0 / ramp_samples[sl]
+    seg_len = np.empty(2 * n, dtype=np.int64)
+    seg_len[0::2] = np.minimum(e1 - e0, owns)
+    seg_len[1::2] = owns - seg_len[0::2]
+    slope_u = np.zeros(2 * n)
+    slope_u[0::2] = inv
+    start_u = np.full(2 * n, -(bins + 0.5) / bins)
+    start_u[0::2] = s0 * inv
+    u = kk * np.repeat(slope_u, seg_len)
+    u -= np.repeat(start_u, seg_len)
+    gi = (u * bins).astype(np.int64)
+    # only a ramp's first and last samples can fall outside [0, 1): the first by rounding
+    # (bin 0, as truncation gives), the last past the ramp's end by up to 1e-9 of a sample
+    # (the spare bin) or at its very end (the last bin)
+    last = e1 - 1
+    u_last = kk[last] * inv - s0 * inv
+    gi[last] = np.where(u_last > 1.0, bins, np.minimum((u_last * bins).astype(np.int64),
+                                                       bins - 1))
+    if offset.size and np.any(offset):
+        gi += np.repeat(offset, owns)
+    size = acc["n"].size
+    acc["n"] += np.bincount(gi, minlength=size)
+    acc["u"] += np.bincount(gi, u, size)
+    acc["y"] += np.bincount(gi, xs, size)
+    acc["r"] += np.bincount(gi, r, size)
+    acc["rr"] += np.bincount(gi, rr, size)

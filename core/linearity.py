@@ -22,15 +22,17 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import signal, stats
+from scipy import signal
 
 from .errors import AnalysisError
 from .fit import LEVEL_FRACTION, LegendreSeries, fit_line, window_bounds
 from .noise import (SMOOTH_ORDER, excess_scatter, robust_sigma, smoother_gain,
                     smoother_kept_fraction, smoothing_window)
-from .results import (AveragedCycle, CycleArrays, CycleFigures, Figures, LineFit, NoiseFloor,
+from .results import (AveragedCycle, CycleArrays, Figures, LineFit, NoiseFloor,
                       PhaseSums, Segmentation, SweepErrors)
 from .edges import interpolate_crossing
+from .percycle import CycleList
+from .tquantile import t_quantile_975
 
 #: The resolution floor is this many standard deviations of the smoothed averaged residual.
 FLOOR_SIGMAS = 4.0
@@ -267,18 +269,21 @@ def slope_ci(fit: LineFit, slopes: np.ndarray) -> tuple[float, float]:
     half = half_ols
     if slopes.size >= 3:
         sd = float(np.std(slopes, ddof=1))
-        half = max(half, float(stats.t.ppf(0.975, slopes.size - 1)) * sd / math.sqrt(slopes.size))
+        half = max(half, float(t_quantile_975(slopes.size - 1)) * sd / math.sqrt(slopes.size))
     b = fit.slope_v_per_s
     return b - half, b + half
 
 
 def build_cycles(cyc: CycleArrays, seg: Segmentation, sign: float,
-                 dt: float = 0.0) -> tuple[CycleFigures, ...]:
-    """Per-cycle records in true polarity, outlying ones marked.
+                 dt: float = 0.0) -> CycleList:
+    """Per-cycle figures in true polarity, outlying ones marked (records built when read).
 
     A ramp time is never called outlying for less than :data:`OUTLIER_Z` sample periods
     ``dt``: edge timing is quantised to the sampling, however identical the cycles."""
-    tq = stats.t.ppf(0.975, np.maximum(cyc.dof, 1))
+    dof = np.maximum(cyc.dof, 1)
+    # a t quantile per distinct window length (a handful), not per cycle
+    dofs, where = np.unique(dof, return_inverse=True)
+    tq = t_quantile_975(dofs)[where]
     with np.errstate(divide="ignore", invalid="ignore"):  # a flat cycle has no span: NaN
         nl = 100.0 * cyc.peak_deviation_v / np.abs(cyc.fitted_span_v)
         tnl = 100.0 * cyc.terminal_peak_v / np.abs(cyc.terminal_span_v)
@@ -289,19 +294,16 @@ def build_cycles(cyc: CycleArrays, seg: Segmentation, sign: float,
     h = tq * cyc.slope_stderr_v_per_s
     start = sign * cyc.start_v
     end = sign * cyc.end_v
-    cols = zip(cyc.ramp_start_s.tolist(), cyc.ramp_time_s.tolist(),
-               seg.retrace_time_s.tolist(), seg.period_s.tolist(),
-               (sign * cyc.intercept_v).tolist(), start.tolist(), end.tolist(),
-               np.abs(end - start).tolist(), b.tolist(), (b - h).tolist(), (b + h).tolist(),
-               cyc.peak_deviation_v.tolist(), nl.tolist(), tnl.tolist(),
-               np.sqrt(cyc.ssr_v2 / cyc.window_samples).tolist(), out_flag.tolist())
-    return tuple(
-        CycleFigures(index=i, ramp_start_s=c[0], ramp_time_s=c[1], retrace_time_s=c[2],
-                     period_s=c[3], offset_v=c[4], start_v=c[5], end_v=c[6], amplitude_v=c[7],
-                     slope_v_per_s=c[8], slope_ci95_v_per_s=(c[9], c[10]),
-                     peak_deviation_v=c[11], nonlinearity_pct=c[12],
-                     terminal_nonlinearity_pct=c[13], residual_rms_v=c[14], outlier=c[15])
-        for i, c in enumerate(cols))
+    n = b.size
+    return CycleList(ramp_start_s=cyc.ramp_start_s,
+                     ramp_time_s=cyc.ramp_time_s, retrace_time_s=seg.retrace_time_s,
+                     period_s=seg.period_s, offset_v=sign * cyc.intercept_v, start_v=start,
+                     end_v=end, amplitude_v=np.abs(end - start), slope_v_per_s=b,
+                     slope_ci_low_v_per_s=b - h, slope_ci_high_v_per_s=b + h,
+                     peak_deviation_v=cyc.peak_deviation_v, nonlinearity_pct=nl,
+                     terminal_nonlinearity_pct=tnl,
+                     residual_rms_v=np.sqrt(cyc.ssr_v2 / cyc.window_samples),
+                     outlier=out_flag, excluded=np.zeros(n, dtype=bool))
 
 
 def summarise(seg: Segmentation, kept: np.ndarray, cyc: CycleArrays, av: AveragedCycle,

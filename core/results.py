@@ -7,6 +7,7 @@ carry ``_pct`` in their name.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from collections.abc import Sequence
 from typing import Any
 
 import numpy as np
@@ -486,7 +487,7 @@ class Analysis:
     settings: Settings
     segmentation: Segmentation
     figures: Figures
-    cycles: tuple[CycleFigures, ...]
+    cycles: Sequence[CycleFigures]  # a percycle.CycleList: records built when read
     averaged: AveragedCycle
     noise: NoiseFloor
     diagnosis: Diagnosis
