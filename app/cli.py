@@ -63,14 +63,24 @@ def main(argv: list[str] | None = None) -> int:
         if as_program:
             leave(status)
         return status
+    if argv and argv[0] == "explain":
+        from trueslope.core.cli import leave
+        from trueslope.core.explain_cli import main as explain_main
+        status = explain_main(argv[1:])
+        if as_program:
+            leave(status)
+        return status
     if argv and argv[0] in ("-h", "--help"):
         print("usage: trueslope [open [FILE] [options]] | trueslope analyze FILE... [options]\n"
-              "       | trueslope compare FILE|FOLDER... [options]\n\n"
+              "       | trueslope compare FILE|FOLDER... [options]\n"
+              "       | trueslope explain FILE|FOLDER... [options]\n\n"
               "  trueslope               open the bench window\n"
               "  trueslope open FILE     open the window on a capture (see 'trueslope open -h')\n"
               "  trueslope analyze FILE  measure in the terminal (see 'trueslope analyze -h')\n"
               "  trueslope compare ...   compare captures, judge limits, write a report "
-              "(see 'trueslope compare -h')")
+              "(see 'trueslope compare -h')\n"
+              "  trueslope explain ...   one cause for captures of one circuit at other "
+              "rates or values (see 'trueslope explain -h')")
         return 0
     if argv and argv[0] == "open":
         argv = argv[1:]

@@ -46,7 +46,9 @@ from .circuit import CircuitContext
 from .diagnose import BIC_MARGIN, window_data
 from .errors import AnalysisError
 from .explain_levels import LevelCheck, level_check, relaxation_cause
+from .fit import LegendreSeries
 from .jsonable import ToDict
+from .models import MAX_POLY_DEGREE
 from .results import Analysis
 
 #: The cause each model stands for; a relaxation is resolved by :func:`_relaxation_cause`.
@@ -144,6 +146,9 @@ class Explanation(ToDict):
         ``absorption.AbsorptionFigures`` of the fitted branches, for absorption.
     absorption_spread : object or None
         ``explain_next.AbsorptionSpread``: the 95 % range of its recovery figures.
+    unexplained : tuple of str
+        Captures whose own shape the set's model does not explain (:func:`_unexplained`):
+        most often a capture of another circuit, or a second cause in it.
     """
 
     captures: tuple[str, ...]
@@ -158,6 +163,7 @@ class Explanation(ToDict):
     next_capture: object | None = None
     absorption: object | None = None
     absorption_spread: object | None = None
+    unexplained: tuple[str, ...] = ()
 
     def model(self, name: str) -> ModelResult | None:
         """The result of one model, or None."""
@@ -390,6 +396,25 @@ def fit_set(members: Sequence[Member]) -> tuple[list[ModelResult], bool]:
     return [dataclasses.replace(r, delta_bic=r.bic - top) for r in results], by_resistance
 
 
+def _unexplained(best: ModelResult, members: Sequence[Member], by_resistance: bool
+                 ) -> tuple[str, ...]:
+    """The captures the set's model leaves a shape in: on its own, the capture's catch-all
+    (a Legendre series of the degree chosen by BIC, as the one-capture diagnosis fits)
+    beats the shared model by more than ``BIC_MARGIN`` after its extra parameters."""
+    out = []
+    for m in members:
+        got = _project(best.model, np.asarray(best.theta), m, by_resistance)
+        top = min(MAX_POLY_DEGREE, m.time_s.size - 3)
+        if got is None or top < 2:
+            continue
+        series = LegendreSeries(m.time_s / m.ramp_time_s, m.voltage_v, m.weight, top)
+        d = series.best_degree(2)
+        excess = float(got[0] @ got[0]) - float(series.chi2[d])
+        if excess - (d + 1 - 2) * math.log(m.time_s.size) > BIC_MARGIN:
+            out.append(m.name)
+    return tuple(out)
+
+
 def explain(analyses: Sequence[Analysis],
             contexts: Sequence[CircuitContext | None] | None = None) -> Explanation:
     """Which cause explains every capture of a set, with its shared parameters.
@@ -445,6 +470,7 @@ def explain(analyses: Sequence[Analysis],
         captures=tuple(m.name for m in members), cause=cause if decided else "undecided",
         best_model=best.model, runner_up=rival.model if rival else None, evidence=evidence,
         models=tuple(results), shared="resistance" if by_resistance else "time-constant",
-        level_check=level, check=check)
+        level_check=level, check=check,
+        unexplained=_unexplained(best, members, by_resistance))
     from . import explain_next
     return explain_next.complete(explanation, members, decided)
