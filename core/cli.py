@@ -7,11 +7,19 @@ every file was measured, 2 when anything was refused (a bad option included).
 
 from __future__ import annotations
 
-import argparse
+import os
+
+# The analysis makes only small BLAS calls; OpenBLAS's extra threads spin between them (one
+# core busy for nothing on a two-core machine). One thread, unless the user says otherwise;
+# it must be in the environment before numpy loads, and this module is the first the
+# command imports.
+for _blas in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+    os.environ.setdefault(_blas, "1")
+
+import argparse  # noqa: E402
 import dataclasses
 import json
 import math
-import os
 import re
 import sys
 import warnings

@@ -58,12 +58,12 @@ from dataclasses import dataclass
 
 import numpy as np
 from numpy.polynomial import legendre
-from scipy import ndimage, signal
 
 from .circuit import CircuitContext, probe_match
 from .fit import LegendreSeries, to_unit_interval
 from .models import MAX_POLY_DEGREE, ModelFit, fit_models
-from .noise import SMOOTH_ORDER, correlation_inflation, excess_scatter, smoothing_window
+from .noise import (SMOOTH_ORDER, correlation_inflation, excess_scatter, moving_mean,
+                    savgol_filter, smoothing_window)
 from .results import AveragedCycle, Diagnosis, Figures, NoiseFloor, ShapeDescription
 
 #: A curved model must lower the BIC by more than this to beat the line. On the
@@ -98,7 +98,7 @@ def _smooth_peak(values: np.ndarray) -> tuple[float, int]:
     if w <= SMOOTH_ORDER or n < w:
         s = values
     else:
-        s = signal.savgol_filter(values, w, SMOOTH_ORDER, mode="interp")
+        s = savgol_filter(values, w, SMOOTH_ORDER)
     i = int(np.argmax(np.abs(s)))
     return float(abs(s[i])), i
 
@@ -264,7 +264,7 @@ def window_data(averaged: AveragedCycle, figures: Figures,
     cnt = np.where(np.isfinite(cnt) & (cnt > 0), cnt, 1.0)
     per_sample = se * se * cnt
     k = int(min(max(NOISE_SMOOTH_BINS, se.size // 20), se.size))
-    se = np.sqrt(ndimage.uniform_filter1d(per_sample, k, mode="nearest") / cnt)
+    se = np.sqrt(moving_mean(per_sample, k) / cnt)
     # Structure repeated in every cycle (a quantisation pattern locked to the sample
     # clock) is not in the cycle-to-cycle spread; where the averaged curve scatters
     # about its smoothed self more than the standard errors say, widen them to match.
@@ -283,7 +283,7 @@ def _scatter_ratio(y: np.ndarray, se: np.ndarray) -> float:
     w = smoothing_window(n)
     if n < w or w <= SMOOTH_ORDER + 1:
         return 1.0
-    hp = y - signal.savgol_filter(y, w, SMOOTH_ORDER, mode="interp")
+    hp = y - savgol_filter(y, w, SMOOTH_ORDER)
     return excess_scatter(hp, se, w)
 
 

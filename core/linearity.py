@@ -22,11 +22,10 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import signal
 
 from .errors import AnalysisError
 from .fit import LEVEL_FRACTION, LegendreSeries, fit_line, window_bounds
-from .noise import (SMOOTH_ORDER, excess_scatter, robust_sigma, smoother_gain,
+from .noise import (SMOOTH_ORDER, excess_scatter, robust_sigma, savgol_filter, smoother_gain,
                     smoother_kept_fraction, smoothing_window)
 from .results import (AveragedCycle, CycleArrays, Figures, LineFit, NoiseFloor,
                       PhaseSums, Segmentation, SweepErrors)
@@ -102,7 +101,7 @@ def average_cycle(sums: PhaseSums, ramp_time_s: float, trim: float,
     # so the window's edges get centred estimates (the reset edges stay outside)
     iw = np.flatnonzero(inw)
     ext = slice(max(0, iw[0] - W // 2), min(t.size, iw[-1] + 1 + W // 2))
-    sm = signal.savgol_filter(resid[ext], W, SMOOTH_ORDER, mode="interp")[inw[ext]]
+    sm = savgol_filter(resid[ext], W, SMOOTH_ORDER)[inw[ext]]
     tw = t[inw]
     rw = resid[inw]
     smooth_full = np.full(resid.shape, np.nan)
@@ -171,7 +170,7 @@ def _group_spread(sums: PhaseSums, keep: np.ndarray, t: np.ndarray, ramp_time_s:
             return None
         if np.any(bad):
             row[bad] = np.interp(te[bad], te[~bad], row[~bad])
-    smg = signal.savgol_filter(rg, window, SMOOTH_ORDER, axis=1, mode="interp")[:, inw[ext]]
+    smg = savgol_filter(rg, window, SMOOTH_ORDER, axis=1)[:, inw[ext]]
     se = np.std(smg, axis=0, ddof=1) / math.sqrt(g)
     return float(np.sqrt(np.mean(se * se)))
 

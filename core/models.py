@@ -26,9 +26,9 @@ The shapes are in ``shapes``. Each model's score is the Bayesian information
 criterion ``BIC = chi2 + p ln n`` with ``chi2 = sum(((v - model) / stderr)^2)``
 (SOURCES.md [bic]). Every nonlinear model has one nonlinear parameter (``k``,
 ``g`` or ``r``); for a fixed value the others follow by linear least squares
-(variable projection), so the fit is a bounded one-dimensional search
-(:func:`scipy.optimize.minimize_scalar`) started from the best point of a
-logarithmic grid, which cannot fail to converge.
+(variable projection), so the fit is a bounded one-dimensional search (Brent's
+method, :func:`trueslope.core.minimise.bounded_minimum`) started from the best point
+of a logarithmic grid, which cannot fail to converge.
 """
 
 from __future__ import annotations
@@ -39,10 +39,10 @@ from dataclasses import dataclass
 from typing import Callable
 
 import numpy as np
-from scipy import optimize
 
 from . import shapes
 from .fit import LegendreSeries
+from .minimise import bounded_minimum
 
 #: Longest absorption time constant, as a fraction of the ramp ("shorter than the ramp").
 DA_MAX_TAU_FRACTION = 0.5
@@ -155,10 +155,9 @@ class Fitter:
         best_s, best_c = float(ss[i]), float(costs[i])
         a_, b_ = ss[max(i - 1, 0)], ss[min(i + 1, grid - 1)]
         if b_ > a_:
-            res = optimize.minimize_scalar(cost, bounds=(a_, b_), method="bounded",
-                                           options={"xatol": 1e-5 * (s_hi - s_lo)})
-            if math.isfinite(res.fun) and res.fun < best_c:
-                best_s = float(res.x)
+            x_min, f_min = bounded_minimum(cost, a_, b_, xatol=1e-5 * (s_hi - s_lo))
+            if math.isfinite(f_min) and f_min < best_c:
+                best_s = float(x_min)
         theta = math.exp(best_s)
         col = column(theta)
         g = self.w * col

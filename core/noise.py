@@ -4,11 +4,13 @@ One model serves the whole pipeline (the averaged cycle's floor in
 ``linearity`` and the model comparison's weights in ``diagnose``):
 
 * the noise of one sample is estimated robustly, as the normal-consistent
-  median absolute deviation (``scipy.stats.median_abs_deviation`` with
-  ``scale="normal"``, i.e. 1.4826 x MAD; SOURCES.md [robust]) of first
-  differences, divided by sqrt(2);
+  median absolute deviation (MAD / Phi^-1(3/4), i.e. 1.4826 x MAD, what
+  ``scipy.stats.median_abs_deviation`` gives with ``scale="normal"``;
+  SOURCES.md [robust]) of first differences, divided by sqrt(2);
 * the systematic part of a residual is its Savitzky-Golay smoothing (cubic,
-  about 1/20 of the window; SOURCES.md [savgol]);
+  about 1/20 of the window; SOURCES.md [savgol]), computed here with numpy
+  (:func:`savgol_coeffs`, :func:`savgol_filter`: importing SciPy's signal
+  package would cost more than a whole analysis of a small capture);
 * what the smoothing leaves, ``y - S y``, is compared with the standard
   errors the cycle-to-cycle spread gives. For white noise of variance
   ``s^2`` the high-pass residual at a point has variance
@@ -31,17 +33,20 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import signal, stats
 
 #: Savitzky-Golay polynomial order for the systematic residual.
 SMOOTH_ORDER = 3
+#: Phi^-1(3/4): the median absolute deviation of a normal variable in standard deviations.
+MAD_PER_SIGMA = 0.6744897501960817
 #: Median of a chi-square variable with one degree of freedom (scipy.stats.chi2(1).median()).
 CHI2_1_MEDIAN = 0.454936423119572
 
 
 def robust_sigma(values: np.ndarray) -> float:
     """Normal-consistent robust standard deviation: 1.4826 x the median absolute deviation."""
-    return float(stats.median_abs_deviation(values, scale="normal")) if values.size else 0.0
+    if not values.size:
+        return 0.0
+    return float(np.median(np.abs(values - np.median(values)))) / MAD_PER_SIGMA
 
 
 def estimate_noise_rms(x: np.ndarray) -> float:
@@ -89,14 +94,67 @@ def smoothing_window(n_points: int) -> int:
     return min(w, _odd(max(SMOOTH_ORDER + 2, n_points)) - (0 if n_points % 2 else 2))
 
 
+def savgol_coeffs(window: int, order: int) -> np.ndarray:
+    """Weights of the Savitzky-Golay smoother: the value at the centre of a window of
+    ``window`` points (odd) of the least-squares polynomial of degree ``order``.
+
+    The minimum-norm solution ``c`` of ``A c = e_0``, ``A[i, j] = x_j^i`` for the
+    offsets ``x_j = j - window // 2``: ``c . y`` is then the fitted polynomial's
+    constant term (SOURCES.md [savgol]). Symmetric, so correlation and convolution
+    with it are the same.
+    """
+    x = np.arange(window, dtype=float) - window // 2
+    a = x[None, :] ** np.arange(order + 1)[:, None]
+    e0 = np.zeros(order + 1)
+    e0[0] = 1.0
+    return np.linalg.lstsq(a, e0, rcond=None)[0]
+
+
+def savgol_filter(y: np.ndarray, window: int, order: int, axis: int = -1) -> np.ndarray:
+    """Savitzky-Golay smoothing of ``y`` along ``axis`` (window odd, at most its length).
+
+    Inside, each point is the centre value of the polynomial fitted to the ``window``
+    points around it; within half a window of either end, the values of the one
+    polynomial fitted to the first (last) ``window`` points (what
+    ``scipy.signal.savgol_filter`` calls ``mode="interp"``).
+    """
+    y = np.ascontiguousarray(np.moveaxis(np.asarray(y, dtype=float), axis, -1))
+    n = y.shape[-1]
+    if window > n or window % 2 == 0:
+        raise ValueError(f"a Savitzky-Golay window of {window} points on {n} points")
+    half = window // 2
+    out = np.empty(y.shape)
+    out[..., half:n - half] = (np.lib.stride_tricks.sliding_window_view(y, window, axis=-1)
+                               @ savgol_coeffs(window, order))
+    rows, out_rows = y.reshape(-1, n), out.reshape(-1, n)
+    k = np.arange(window, dtype=float)
+    for first, at in ((0, slice(0, half)), (n - window, slice(n - half, n))):
+        # one polynomial per row (numpy.polyfit takes the rows as columns), highest power first
+        p = np.polyfit(k, rows[:, first:first + window].T, order)
+        pos = np.arange(at.start, at.stop, dtype=float) - first
+        out_rows[:, at] = (np.polynomial.polynomial.polyvander(pos, order) @ p[::-1]).T
+    return np.moveaxis(out, -1, axis)
+
+
+def moving_mean(values: np.ndarray, size: int) -> np.ndarray:
+    """Mean of the ``size`` values around each one, the ends extended by repeating the
+    end values (``scipy.ndimage.uniform_filter1d`` with ``mode="nearest"``: the window
+    of point ``i`` runs from ``i - size // 2`` for ``size`` points)."""
+    v = np.asarray(values, dtype=float)
+    lead = size // 2
+    padded = np.concatenate((np.full(lead, v[0]), v, np.full(size - 1 - lead, v[-1])))
+    run = np.concatenate(([0.0], np.cumsum(padded)))
+    return (run[size:] - run[:-size]) / size
+
+
 def smoother_kept_fraction(window: int) -> float:
     """``1 - sum(c^2)``: the fraction of white-noise variance the smoother leaves."""
-    return max(1.0 - float(np.sum(signal.savgol_coeffs(window, SMOOTH_ORDER) ** 2)), 1e-6)
+    return max(1.0 - float(np.sum(savgol_coeffs(window, SMOOTH_ORDER) ** 2)), 1e-6)
 
 
 def smoother_gain(window: int) -> float:
     """``sqrt(sum(c^2))``: noise on one smoothed point per unit noise of a raw point."""
-    return float(np.sqrt(np.sum(signal.savgol_coeffs(window, SMOOTH_ORDER) ** 2)))
+    return float(np.sqrt(np.sum(savgol_coeffs(window, SMOOTH_ORDER) ** 2)))
 
 
 def excess_scatter(high_pass: np.ndarray, se: np.ndarray, window: int) -> float:
