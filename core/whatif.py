@@ -9,7 +9,10 @@ answers the practitioner's next question with numbers (``report.prose`` words th
   coefficient, and the longest ramp time with the measured shunt, that keep the
   least-squares nonlinearity over the same fit window at a target;
 - :func:`predict_change`: the ramp after a change of the shunt (e.g. a 10x probe
-  in place of a 1x), its nonlinearity, slope and curve.
+  in place of a 1x, a current source's output resistance), of the capacitance, or of
+  the capacitor's dielectric (its typical absorption, ``whatif_absorption``): its
+  nonlinearity, slope and curve;
+- the largest absorption a dielectric may have for the target (``Requirements``).
 
 Measurement frame throughout: a falling ramp is mirrored, as in ``selfcheck``.
 Shunt: SOURCES.md [loading]; voltage coefficient: SOURCES.md [voltage-coefficient];
@@ -29,6 +32,7 @@ from .circuit import PREDICTION_POINTS, CircuitContext, predict_ramp
 from .errors import AnalysisError
 from .jsonable import ToDict
 from .results import Diagnosis, Figures
+from . import whatif_absorption as wa
 from .shapes import falling_capacitance
 
 #: Target least-squares nonlinearity when none is given, %.
@@ -68,6 +72,10 @@ class Requirements(ToDict):
         Longest ramp time at which the measured ``R C`` keeps the target (a
         shunt's bow grows with ``T / (R C)``, so the ramp must be this short or
         shorter); None without a measured shunt.
+    max_absorption_pct : float
+        Largest standard recovery figure of the capacitor's dielectric that keeps the
+        target with the measured shunt (``whatif_absorption.max_absorption_pct``), %;
+        NaN when the shunt alone exceeds the target.
     """
 
     target_nonlinearity_pct: float
@@ -84,6 +92,7 @@ class Requirements(ToDict):
     measured_tau_s: float | None
     measured_shunt_ohm: float | None
     max_ramp_time_s: float | None
+    max_absorption_pct: float = math.nan
 
 
 @dataclass(frozen=True)
@@ -100,6 +109,33 @@ class ShuntChange(ToDict):
         for v in (self.old_ohm, self.new_ohm):
             if v is not None and not (math.isfinite(v) and v > 0):
                 raise AnalysisError(f"a shunt must be a positive number of ohms, got {v!r}")
+
+
+@dataclass(frozen=True)
+class CapacitanceChange(ToDict):
+    """The timing capacitor replaced by ``new_f`` farads at the same current (whatever is
+    across it stays)."""
+
+    new_f: float
+
+    def __post_init__(self) -> None:
+        if not (math.isfinite(self.new_f) and self.new_f > 0):
+            raise AnalysisError(f"a capacitance must be a positive number of farads, "
+                                f"got {self.new_f!r}")
+
+
+@dataclass(frozen=True)
+class DielectricChange(ToDict):
+    """The timing capacitor replaced by one of the same value whose dielectric absorbs
+    typically for ``dielectric`` (a row of ``absorption.DIELECTRIC_ABSORPTION``)."""
+
+    dielectric: str
+
+    def __post_init__(self) -> None:
+        wa.typical_pct(self.dielectric)  # refuses an unknown name
+
+
+Change = ShuntChange | CapacitanceChange | DielectricChange
 
 
 @dataclass(frozen=True)
@@ -272,17 +308,68 @@ def requirements(figures: Figures, diagnosis: Diagnosis, context: CircuitContext
     if shunt is None and tau is not None and C is not None:
         shunt = tau / C
     nl = figures.nonlinearity_pct
+    # absorption: only I / C, R C and I R matter, so C = 1 with R = tau stands for any C
+    i_unit = (_current_for_time(T / tau, tau, v0, v1) if tau is not None
+              else (v1 - v0) / T)
+    max_da = wa.max_absorption_pct(t, i_unit, 1.0, v0, v1, tau, _reset_s(figures), window)
     return Requirements(
         target_nonlinearity_pct=t, measured_nonlinearity_pct=nl,
         target_met=bool(math.isfinite(nl) and nl <= t),
         window_start_frac=window[0], window_end_frac=window[1], v0_v=v0, v1_v=v1, held=held,
         min_shunt_ohm=min_r, min_time_constant_s=min_tau,
         max_voltage_coefficient_per_v=beta, measured_tau_s=tau, measured_shunt_ohm=shunt,
-        max_ramp_time_s=k_star * tau if tau is not None else None)
+        max_ramp_time_s=k_star * tau if tau is not None else None, max_absorption_pct=max_da)
+
+
+def _reset_s(figures: Figures) -> float:
+    r = figures.retrace_time_s
+    return float(r) if math.isfinite(r) and r > 0 else 1e-3 * figures.ramp_time_s
 
 
 def predict_change(figures: Figures, diagnosis: Diagnosis, context: CircuitContext,
-                   change: ShuntChange) -> ChangePrediction:
+                   change: Change) -> ChangePrediction:
+    """The ramp after a change: a shunt (:class:`ShuntChange`), the capacitance
+    (:class:`CapacitanceChange`) or the capacitor's dielectric (:class:`DielectricChange`).
+
+    A shunt: below. Another capacitance or dielectric keeps the measured shunt (none
+    unless the diagnosis is ``shunt-loading``) and the current; the new dielectric's
+    typical absorption (``whatif_absorption``) replaces whatever the old part had, and
+    another capacitance is taken as absorbing no more than the measured ramp showed
+    (a ramp diagnosed with absorption or a voltage coefficient is refused: name the
+    dielectric instead). Every figure over the same window fractions.
+    """
+    if isinstance(change, ShuntChange):
+        return _shunt_change(figures, diagnosis, context, change)
+    C = context.effective_capacitance_f if context is not None else None
+    if C is None:
+        raise AnalysisError("a change of the capacitor needs the capacitance")
+    sign, v0, v1, window = _frame(figures)
+    T = figures.ramp_time_s
+    tau = _measured_tau(diagnosis)
+    r = tau / C if tau is not None else None
+    I = context.effective_current_a
+    if I is None:
+        I = _current_for_time(T / tau, r, v0, v1) if tau is not None else C * (v1 - v0) / T
+    branches: list[tuple[float, float]] = []
+    if isinstance(change, CapacitanceChange):
+        if diagnosis.signature not in ("linear", "shunt-loading"):
+            raise AnalysisError("another capacitance is predicted for a straight or "
+                                "shunt-loaded ramp; for absorption, choose a dielectric")
+        C = change.new_f + (context.probe_capacitance_f or 0.0)
+    else:
+        branches = wa.branches_for(wa.typical_pct(change.dielectric),
+                                   max(_reset_s(figures), 1e-9))
+    T_new, t, v, slope, nl = wa.absorbing_ramp(I, C, v0, v1, r, branches, _reset_s(figures),
+                                               window)
+    return ChangePrediction(
+        measured_shunt_ohm=r if r is not None else math.inf,
+        new_shunt_ohm=r if r is not None else math.inf, remainder_clamped=False,
+        current_a=I, ramp_time_s=T_new, slope_v_per_s=sign * slope, nonlinearity_pct=nl,
+        time_s=t, voltage_v=sign * v)
+
+
+def _shunt_change(figures: Figures, diagnosis: Diagnosis, context: CircuitContext,
+                  change: ShuntChange) -> ChangePrediction:
     """The ramp after one resistance across the capacitor is replaced by another.
 
     ``R_new = 1 / (1/R_measured - 1/R_old + 1/R_new_part)`` (conductances in

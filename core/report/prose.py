@@ -11,7 +11,7 @@ import math
 
 from ..results import CheckItem, ContextCheck, Diagnosis
 from ..selfcheck import AGREES, DISAGREES
-from .numbers import pct, si
+from .numbers import finite, pct, si
 
 #: Strength boundaries (multiples of the resolution floor): below 1 the shape is
 #: not above the noise.
@@ -405,6 +405,10 @@ def requirements_text(req: Requirements) -> list[str]:
         lines.append(f"The shunt measured is {si(req.measured_shunt_ohm, 'Ω')}.")
     lines.append(f"A capacitance falling with voltage may change by at most "
                  f"{pct(100 * req.max_voltage_coefficient_per_v)} per volt over this swing.")
+    if finite(req.max_absorption_pct):
+        lines.append(f"The capacitor's dielectric may absorb at most "
+                     f"{pct(req.max_absorption_pct)} in the standard recovery test (assuming "
+                     f"absorption spread evenly per decade of time constant).")
     if req.max_ramp_time_s is not None:
         lines.append(f"With the measured shunt (time constant {si(req.measured_tau_s, 's')}), "
                      f"the ramp must last no longer than {si(req.max_ramp_time_s, 's')}.")

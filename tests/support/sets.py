@@ -108,13 +108,17 @@ def growing(beta_per_v: float, current_a: float) -> Case:
                 current_a)
 
 
-def dow(branches: list[tuple[float, float]], current_a: float, c_f: float = C_F) -> Case:
-    """Dow-model absorption: branches ``(C_i / C, tau_i)`` as series R-C across C."""
+def dow(branches: list[tuple[float, float]], current_a: float, c_f: float = C_F,
+        ic_v: float = 0.0, name: str = "") -> Case:
+    """Dow-model absorption: branches ``(C_i / C, tau_i)`` as series R-C across C, starting
+    at ``ic_v`` (the mean ramp level puts branches far slower than the simulated time
+    where the periodic steady state holds them)."""
     lines = [f"C1 ramp 0 {c_f:.6g} IC=0", "ES show 0 ramp 0 1"]
     for i, (k, tau) in enumerate(branches, 1):
         ci = k * c_f
-        lines += [f"RA{i} ramp a{i} {tau / ci:.6g}", f"CA{i} a{i} 0 {ci:.6g} IC=0"]
-    return Case(f"dow_{len(branches)}_{current_a:.3g}", "\n".join(lines), current_a, c_f)
+        lines += [f"RA{i} ramp a{i} {tau / ci:.6g}", f"CA{i} a{i} 0 {ci:.6g} IC={ic_v:g}"]
+    return Case(name or f"dow_{len(branches)}_{current_a:.3g}", "\n".join(lines), current_a,
+                c_f)
 
 
 def probe_tail(tip_c_f: float, current_a: float, r_tip: float = 9e6, r_scope: float = 1e6,
