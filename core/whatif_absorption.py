@@ -23,11 +23,12 @@ from scipy.optimize import brentq
 
 from .absorption import (DIELECTRIC_ABSORPTION, SPREAD_TOP_S, STANDARD_CHARGE_S,
                          STANDARD_READ_S, STANDARD_SHORT_S, even_spread, recovery)
-from .circuit import PREDICTION_POINTS
 from .errors import AnalysisError
 
 #: The density per decade of the unit network the standard figure is scaled from.
 UNIT_PER_DECADE = 0.01
+#: Points of a predicted curve over the window (the nonlinearity to about 1e-3 of itself).
+CURVE_POINTS = 1001
 
 
 def typical_pct(dielectric: str) -> float:
@@ -94,6 +95,12 @@ class _Network:
         z = np.exp(-np.outer(t, self.lam)) * z0 + self._phi_t(t) * self.h
         return (z @ self.Q.T) / self.root
 
+    def node(self, x0: np.ndarray, t: np.ndarray) -> np.ndarray:
+        """The capacitor's voltage alone at the times ``t`` (cheaper than :meth:`states`)."""
+        z0 = self.Q.T @ (self.root * x0)
+        z = np.exp(-np.outer(t, self.lam)) * z0 + self._phi_t(t) * self.h
+        return z @ self.Q[0]
+
     def reset(self, u: np.ndarray, v0: float, v1: float, reset_s: float) -> np.ndarray:
         """The branches after the node is driven linearly from v1 to v0 in ``reset_s``."""
         if reset_s <= 0:
@@ -136,27 +143,30 @@ def absorbing_ramp(I: float, C: float, v0: float, v1: float, R: float | None,
     net = _Network(I, C, R, branches)
     T = C * (v1 - v0) / I
     u0 = np.full(net.k.size, 0.5 * (v0 + v1))
-    for _ in range(4):
+    if R is not None and I * R > v1:
+        T = R * C * math.log((I * R - v0) / (I * R - v1))
+    for _ in range(3):
         x0 = np.concatenate([[v0], u0])
 
         def gap(t: float) -> float:
-            return float(net.states(x0, np.array([t]))[0, 0]) - v1
-        hi = 2.0 * T
+            return float(net.node(x0, np.array([t]))[0]) - v1
+        hi = 1.5 * T
         while gap(hi) < 0 and hi < 1e3 * T:
             hi *= 2.0
         if gap(hi) < 0:
             return math.inf, np.zeros(0), np.zeros(0), math.nan, math.nan
-        T = brentq(gap, 1e-12 * T, hi, xtol=1e-15 * T)
+        lo = 0.5 * T if gap(0.5 * T) < 0 else 1e-12 * T
+        T = brentq(gap, lo, hi, xtol=1e-12 * T)
         u0 = _periodic(net, v0, v1, T, reset_s)
     x0 = np.concatenate([[v0], u0])
-    t = np.linspace(window[0] * T, window[1] * T, PREDICTION_POINTS)
-    v = net.states(x0, t)[:, 0]
+    t = np.linspace(window[0] * T, window[1] * T, CURVE_POINTS)
+    v = net.node(x0, t)
     width = float(t[-1] - t[0])
     u = (t - t[0]) / width
     p = np.polyfit(u, v - v0, 1)
     nl = 100.0 * float(np.max(np.abs(v - v0 - np.polyval(p, u)))) / float(p[0])
     whole = np.linspace(0.0, T, 201)
-    return T, whole, net.states(x0, whole)[:, 0], float(p[0]) / width, nl
+    return T, whole, net.node(x0, whole), float(p[0]) / width, nl
 
 
 def max_absorption_pct(target_pct: float, I: float, C: float, v0: float, v1: float,
@@ -166,14 +176,22 @@ def max_absorption_pct(target_pct: float, I: float, C: float, v0: float, v1: flo
     exceeds it) and ``inf`` where even 100 % would not reach it."""
     low = max(reset_s, 1e-9)
 
-    def excess(log_pct: float) -> float:
-        nl = absorbing_ramp(I, C, v0, v1, R, branches_for(math.exp(log_pct), low), reset_s,
-                            window)[4]
-        return (nl if math.isfinite(nl) else 1e3) - target_pct
+    def nl_at(pct_: float) -> float:
+        nl = absorbing_ramp(I, C, v0, v1, R, branches_for(pct_, low), reset_s, window)[4]
+        return nl if math.isfinite(nl) else 1e3
 
-    lo, hi = math.log(1e-4), math.log(100.0)
-    if excess(lo) > 0:
+    base = nl_at(0.0)
+    if not base < target_pct:
         return math.nan
-    if excess(hi) < 0:
+    # nearly linear in the strength: start from the line through 0 and 1 %, then bracket
+    unit = nl_at(1.0)
+    guess = (target_pct - base) / (unit - base) if unit > base else 100.0
+    guess = min(max(guess, 1e-4), 100.0)
+    lo, hi = guess / 1.5, min(guess * 1.5, 100.0)
+    while lo > 1e-4 and nl_at(lo) > target_pct:
+        lo /= 3.0
+    while hi < 100.0 and nl_at(hi) < target_pct:
+        hi = min(hi * 3.0, 100.0)
+    if nl_at(hi) < target_pct:
         return math.inf
-    return math.exp(brentq(excess, lo, hi, xtol=1e-6))
+    return brentq(lambda x: nl_at(x) - target_pct, lo, hi, rtol=1e-3)
