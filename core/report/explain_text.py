@@ -16,7 +16,7 @@ from .absorption_text import absorption_lines
 from .numbers import finite, pct, si
 from .prose import PROBE_MATCH_WORDS
 
-__all__ = ["CAUSE_WORDS", "MODEL_WORDS", "explanation_lines", "parameter_text", "verdict_line"]
+__all__ = ["CAUSE_WORDS", "MODEL_WORDS", "absorption_block", "explanation_lines", "parameter_text", "verdict_line"]
 
 #: The set's cause in words.
 CAUSE_WORDS = {
@@ -154,14 +154,21 @@ def explanation_lines(e) -> list[str]:
             lines.append(extra)
     if e.check:
         lines.append(CHECK_WORDS[e.check])
-    if e.absorption is not None:
-        lines += absorption_lines(e.absorption)
-        sp = e.absorption_spread
-        if sp is not None:
-            lines.append(f"From the branches' uncertainty (95 %): short-time recovery "
-                         f"{pct(sp.short_recovery_low_pct)} to {pct(sp.short_recovery_high_pct)}, "
-                         f"standard figure {pct(sp.standard_recovery_low_pct)} to "
-                         f"{pct(sp.standard_recovery_high_pct)}.")
+    return lines + absorption_block(e)
+
+
+def absorption_block(e) -> list[str]:
+    """The absorption figures of an explanation and their range from the branches'
+    uncertainty; empty when it has none."""
+    if e.absorption is None:
+        return []
+    lines = absorption_lines(e.absorption)
+    sp = e.absorption_spread
+    if sp is not None:
+        lines.append(f"From the branches' uncertainty (95 %): short-time recovery "
+                     f"{pct(sp.short_recovery_low_pct)} to {pct(sp.short_recovery_high_pct)}, "
+                     f"standard figure {pct(sp.standard_recovery_low_pct)} to "
+                     f"{pct(sp.standard_recovery_high_pct)}.")
     return lines
 
 

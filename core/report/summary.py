@@ -113,12 +113,36 @@ def what_it_takes_lines(a: Analysis) -> list[str]:
     return ["What it would take:"] + [f"  {line}" for line in requirements_text(req)]
 
 
+def absorption_summary_lines(a: Analysis) -> list[str]:
+    """For a ramp diagnosed with dielectric absorption, what this capture measures of it:
+    the one-capture explanation (``explain``), whose branch strengths the reset ties to
+    the shape, worded by ``explain_text`` and ``absorption_text``; nothing otherwise."""
+    if a.diagnosis.signature != "dielectric-absorption":
+        return []
+    from ..errors import TrueslopeError
+    from ..explain import explain
+    from .explain_text import CHECK_WORDS, absorption_block
+    try:
+        e = explain([a], [a.settings.context])
+    except (TrueslopeError, ArithmeticError, ValueError):
+        return []
+    lines = absorption_block(e)
+    if not lines:
+        return []
+    if e.check:
+        lines.append(CHECK_WORDS[e.check])
+    lines.append("Captures at other charging currents pin the branches down: "
+                 "'trueslope explain' takes them together.")
+    return ["Absorption at this ramp's time scale:"] + [f"  {line}" for line in lines]
+
+
 def findings_lines(a: Analysis) -> list[str]:
     """Diagnosis and self-check lines of the summary."""
     d = a.diagnosis
     out = [f"  Diagnosis: {diagnosis_line(a)}", f"    {explanation(d)}"]
     out += [f"    - {step}" for step in next_checks(d)]
     out += [f"  {line}" for line in what_it_takes_lines(a)]
+    out += [f"  {line}" for line in absorption_summary_lines(a)]
     c = a.context_check
     if c is not None:
         out.append("  Self-check against the stated circuit")

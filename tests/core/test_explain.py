@@ -221,3 +221,12 @@ def test_refusals_name_the_problem(measured):
     a, b = S.shunt(2.2e6, 100e-6), S.shunt(2.2e6, 25e-6)
     with pytest.raises(AnalysisError, match="every capture or for none"):
         explain([measured(a, 0), measured(b, 1)], [S.context(a), S.context(b, False)])
+
+
+def test_the_terminal_tells_what_one_absorbing_capture_measures(measured):
+    from trueslope.core.report.summary import summary_text
+    a = measured(S.dow(S.FILM, 100e-6), 0)
+    assert a.diagnosis.signature == "dielectric-absorption"
+    text = summary_text(a)
+    assert "Absorption at this ramp's time scale:" in text
+    assert "Short-time recovery" in text and "From the branches' uncertainty" in text
