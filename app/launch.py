@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import os
 import sys
+import threading
 from pathlib import Path
 
 #: Size of the window in screenshot mode, pixels: wide enough for every panel.
@@ -30,6 +31,26 @@ def parse_size(text: str) -> tuple[int, int]:
     return w, h
 #: Longest wait for the analysis in screenshot mode, milliseconds.
 SCREENSHOT_TIMEOUT_MS = 300_000
+
+
+#: What the first analysis imports, imported on a background thread while Qt starts.
+ANALYSIS_MODULES = ("trueslope.core.analysis", "trueslope.core.io", "trueslope.core.report",
+                    "pyarrow.csv")
+
+
+def preload_analysis() -> threading.Thread:
+    """Import the analysis modules on a daemon thread, so that opening the first capture
+    does not wait for them (the imports overlap Qt's start-up and the first paint)."""
+    def work() -> None:
+        import importlib
+        for name in ANALYSIS_MODULES:
+            try:
+                importlib.import_module(name)
+            except Exception:  # noqa: BLE001  the job that needs it reports the failure
+                return
+    t = threading.Thread(target=work, name="trueslope-preload", daemon=True)
+    t.start()
+    return t
 
 
 def _headless() -> bool:
@@ -90,10 +111,11 @@ def launch(path: str | None = None, channel: str | None = None, sync_channel: st
         Exit status: 0, 1 when a screenshot run could not open or measure the
         capture (the picture is saved all the same), 2 for a bad option.
     """
-    from trueslope.core.cli import error_line
+    from trueslope.core.cli import error_line  # first: it bounds BLAS threads before numpy
     from trueslope.core.errors import SettingsError, TrueslopeError
     from trueslope.core.settings import Settings
 
+    preload_analysis()
     interval_s = None
     window_size = SCREENSHOT_SIZE if screenshot else None
     if size is not None:

@@ -43,10 +43,10 @@ def find_spikes(x: np.ndarray, span_v: float, noise_v: float) -> np.ndarray:
     if n < 5:
         return np.zeros(0, dtype=np.int64)
     thr = max(SPIKE_FRACTION * span_v, SPIKE_NOISE_SIGMAS * noise_v)
-    d = np.diff(x)
-    jumps = np.flatnonzero(np.abs(d) > thr)  # d[k] = x[k+1] - x[k]: resets and spikes
+    jumps = _jumps(x, thr)  # k where |x[k+1] - x[k]| > thr: resets and spikes
     out: list[np.ndarray] = []
     if jumps.size:
+        d = _Steps(x)
         i = jumps[(jumps >= 1) & (jumps <= n - 2)]  # sample i with both neighbours
         # one sample: x[i] leaves x[i-1] by d[i-1] and x[i+1] leaves it by d[i], opposite
         one = i[(np.abs(d[i - 1]) > thr) & (np.sign(d[i - 1]) == -np.sign(d[i]))]
@@ -59,6 +59,29 @@ def find_spikes(x: np.ndarray, span_v: float, noise_v: float) -> np.ndarray:
         pair = j[up | down]
         out += [pair, pair + 1]
     return np.unique(np.concatenate(out)) if out else np.zeros(0, dtype=np.int64)
+
+
+def _jumps(x: np.ndarray, thr: float, block: int = 1 << 16) -> np.ndarray:
+    """Every ``k`` with ``|x[k+1] - x[k]| > thr``, a cache-sized block at a time (no
+    whole-record temporaries)."""
+    found = []
+    buf = np.empty(block)
+    for a in range(0, x.size - 1, block):
+        b = min(a + block, x.size - 1)
+        d = np.subtract(x[a + 1:b + 1], x[a:b], out=buf[:b - a])
+        np.abs(d, out=d)
+        found.append(np.flatnonzero(d > thr) + a)
+    return np.concatenate(found) if found else np.zeros(0, dtype=np.int64)
+
+
+class _Steps:
+    """``d[k] = x[k+1] - x[k]`` for the few ``k`` asked for, as if ``numpy.diff(x)``."""
+
+    def __init__(self, x: np.ndarray) -> None:
+        self.x = x
+
+    def __getitem__(self, k):
+        return self.x[k + 1] - self.x[k]
 
 
 def without_spikes(x: np.ndarray, spikes: np.ndarray) -> np.ndarray:

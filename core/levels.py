@@ -97,6 +97,12 @@ def ramp_extremes(x: np.ndarray, tail_fraction: float = 0.002, bins: int = 2048)
     -------
     (low_v, high_v) : tuple of float
     """
+    return ramp_extremes_at(x, (tail_fraction,), bins)[0]
+
+
+def ramp_extremes_at(x: np.ndarray, tail_fractions: tuple[float, ...], bins: int = 2048
+                     ) -> list[tuple[float, float]]:
+    """:func:`ramp_extremes` for several tail fractions from one histogram."""
     x = np.asarray(x)
     if x.size > 4_000_000:
         # 80 evenly spread contiguous stretches hold every phase of any ramp long enough
@@ -106,6 +112,9 @@ def ramp_extremes(x: np.ndarray, tail_fraction: float = 0.002, bins: int = 2048)
     counts, edges = _histogram(x, bins)
     c = np.cumsum(counts)
     n = c[-1]
-    i_lo = int(np.searchsorted(c, tail_fraction * n, side="left"))
-    i_hi = int(np.searchsorted(c, (1.0 - tail_fraction) * n, side="left"))
-    return float(edges[i_lo]), float(edges[min(i_hi + 1, len(edges) - 1)])
+    out = []
+    for tail_fraction in tail_fractions:
+        i_lo = int(np.searchsorted(c, tail_fraction * n, side="left"))
+        i_hi = int(np.searchsorted(c, (1.0 - tail_fraction) * n, side="left"))
+        out.append((float(edges[i_lo]), float(edges[min(i_hi + 1, len(edges) - 1)])))
+    return out

@@ -69,7 +69,17 @@ class CycleList(Sequence):
         return next(self._records([k % n]))
 
     def __iter__(self) -> Iterator[CycleFigures]:
-        return self._records(range(len(self)))
+        built = self.__dict__.get("_built")
+        return iter(built) if built is not None else self._records(range(len(self)))
+
+    def records(self) -> tuple[CycleFigures, ...]:
+        """Every record, built once and kept (a worker thread builds them so that the
+        window's thread, iterating afterwards, only reads them)."""
+        built = self.__dict__.get("_built")
+        if built is None:
+            built = tuple(self._records(range(len(self))))
+            object.__setattr__(self, "_built", built)  # a cache, not a field: still frozen
+        return built
 
     def __eq__(self, other: object) -> bool:
         if isinstance(other, (CycleList, tuple, list)):

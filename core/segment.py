@@ -17,7 +17,7 @@ from .artefacts import Clipping, find_clipping, find_spikes, without_spikes
 from .edges import (fast_corners, interpolate_crossing, local_crossing, slow_corners,
                     window_argext)
 from .errors import NoFullCycleError, NotASawtoothError
-from .levels import ramp_extremes, state_levels
+from .levels import ramp_extremes, ramp_extremes_at, state_levels
 from .noise import adc_step, estimate_noise_rms
 from .results import Segmentation, StateLevels
 
@@ -165,10 +165,14 @@ def segment(v: np.ndarray, sample_interval_s: float, t0_s: float = 0.0,
     """
     raw = np.asarray(v, dtype=float)
     noise = estimate_noise_rms(raw)
-    lo, hi = ramp_extremes(raw)
+    # one histogram gives the extremes and, without spikes, the candidate levels too
+    extremes = ramp_extremes_at(raw, (0.002, 0.05))
+    lo, hi = extremes[0]
     step = _check_not_flat(raw, lo, hi, noise)
     spikes = find_spikes(raw, hi - lo, noise)
     x = without_spikes(raw, spikes)
+    if spikes.size:
+        extremes = ramp_extremes_at(x, (0.002, 0.05))
     clip = find_clipping(x)
     if sync is not None:
         lo, hi = ramp_extremes(x) if spikes.size else (lo, hi)
@@ -178,7 +182,7 @@ def segment(v: np.ndarray, sample_interval_s: float, t0_s: float = 0.0,
                                    clipped_bottom_v=clip.bottom_v)
     best: Segmentation | None = None
     first_error: Exception | None = None
-    for cand in _candidate_levels(x):
+    for cand in _candidate_levels(*extremes):
         if best is not None and _coverage(best, x.size, sample_interval_s) >= WELL_COVERED:
             break
         try:
@@ -238,11 +242,12 @@ def _check_not_flat(x: np.ndarray, lo: float, hi: float, noise: float) -> float 
     return found
 
 
-def _candidate_levels(x: np.ndarray) -> list[StateLevels]:
+def _candidate_levels(extremes: tuple[float, float], tails: tuple[float, float]
+                      ) -> list[StateLevels]:
     """Levels to try first: the histogram's extremes, and its 5 % and 95 % points
-    widened as for a uniform ramp (robust to a power-up or a flat stretch)."""
-    lo, hi = ramp_extremes(x)
-    q5, q95 = ramp_extremes(x, tail_fraction=0.05)
+    (``tails``) widened as for a uniform ramp (robust to a power-up or a flat stretch)."""
+    lo, hi = extremes
+    q5, q95 = tails
     w = (q95 - q5) / 0.9
     out = [_levels(lo, hi)]
     if w > 0:
