@@ -96,6 +96,10 @@ class BenchMixin:
         self.act_as_now = self._action("Measure changed files as they are &now",
                                        self.measure_changed_as_now, (),
                                        "Accept the selected changed captures as they are now")
+        self.act_explain = self._action(
+            "&Explain the compared captures (one cause)", self.explain_bench, (),
+            "Find the one cause that explains the selected captures of the comparison (every "
+            "measured one when none is selected), with circuit values shared across them")
         self._needs_analysis.append(self.act_add_current)
 
     def _add_bench_menu_items(self, file_menu: QtWidgets.QMenu, before) -> None:
@@ -107,9 +111,14 @@ class BenchMixin:
             else:
                 file_menu.insertAction(before, a)
 
+    def _add_bench_analysis_items(self, menu: QtWidgets.QMenu) -> None:
+        menu.addSeparator()
+        menu.addAction(self.act_explain)
+
     def _shutdown_bench(self) -> None:
         self.follower.shutdown()
         self.bench.runner.shutdown()
+        self.bench.explainer.shutdown()
         self.tasks.shutdown()
 
     def _single_toolbar_visible(self, on: bool) -> None:
@@ -121,6 +130,11 @@ class BenchMixin:
 
     def show_bench(self) -> None:
         self.views.setCurrentWidget(self.bench)
+
+    def explain_bench(self) -> None:
+        """Show the comparison and explain its chosen captures (in the background)."""
+        self.show_bench()
+        self.bench.explain()
 
     def add_current_to_bench(self) -> None:
         if self.path is None or self.analysis is None:

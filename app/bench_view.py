@@ -23,10 +23,16 @@ from trueslope.core.limits import Limits
 from trueslope.core.session import SessionCapture
 from trueslope.core.settings import Settings
 
+from .bench_explain import Explainer
 from .bench_jobs import CHANGE_WORDS, BenchAnswer, BenchInput, BenchRequest, run_bench
 from .bench_table import CaptureTable, GroupTable, OverlayPlot, content_height
+from .explain_panel import ExplainPanel
 from .jobs import JobRunner
 
+#: The Explain button's text and tip (the menu entry says the same at more length).
+EXPLAIN_TEXT = "Explain"
+EXPLAIN_TIP = ("Find the one cause that explains the selected captures (every measured one "
+               "when none is selected), with circuit values shared across them")
 #: The view's hint while it holds no capture.
 EMPTY_HINT = ("Add capture files or a folder (or drop them here), or follow a folder to take "
               "each new export as it is written.")
@@ -114,6 +120,7 @@ class BenchView(QtWidgets.QWidget):
                      self.patterns_dialog)
         self.follow_button = self._button("Follow folder…", "Take each new export written "
                                           "into a folder as soon as it is complete", lambda: None)
+        self.explain_button = self._button(EXPLAIN_TEXT, EXPLAIN_TIP, lambda: self.explain())
         self._bar.addStretch(1)
         self.limits_label = QtWidgets.QLabel("No limits loaded")
         self.limits_label.setObjectName("limitsLabel")
@@ -136,13 +143,19 @@ class BenchView(QtWidgets.QWidget):
         self.table.group_typed.connect(self.set_group)
         self.table.capture_chosen.connect(self._choose)
         self.overlay = OverlayPlot()
+        self.explain_panel = ExplainPanel()
+        self.explainer = Explainer(self, self.explain_panel)
+        self.lower = QtWidgets.QTabWidget()
+        self.lower.setObjectName("benchLower")
+        self.lower.addTab(self.overlay, "Residuals overlaid")
+        self.lower.addTab(self.explain_panel, "Explanation (one cause for the set)")
         self.groups = GroupTable()
         groups_box = QtWidgets.QGroupBox("Group statistics")
         gl = QtWidgets.QVBoxLayout(groups_box)
         gl.setContentsMargins(4, 4, 4, 4)
         gl.addWidget(self.groups)
         self.split = QtWidgets.QSplitter(QtCore.Qt.Orientation.Vertical)
-        for w, stretch in ((self.table, 3), (groups_box, 2), (self.overlay, 5)):
+        for w, stretch in ((self.table, 3), (groups_box, 2), (self.lower, 5)):
             self.split.addWidget(w)
             self.split.setStretchFactor(self.split.count() - 1, stretch)
         self.split.setChildrenCollapsible(False)
@@ -247,6 +260,13 @@ class BenchView(QtWidgets.QWidget):
     def cancel(self) -> None:
         self.runner.cancel()
 
+    def explain(self) -> None:
+        """One cause for the selected captures (every measured one when none is selected)."""
+        self.explainer.explain()
+
+    def show_explanation(self) -> None:
+        self.lower.setCurrentWidget(self.explain_panel)
+
     def _on_answer(self, req: BenchRequest, ans: BenchAnswer) -> None:
         for it in self.items:
             m = ans.measured.get(it.path)
@@ -310,7 +330,7 @@ class BenchView(QtWidgets.QWidget):
         total = max(self.split.height(), 600)
         top = content_height(self.table, 12)
         mid = content_height(self.groups, 6) + 28  # the group box's title and margins
-        self.split.setSizes([top, mid, max(total - top - mid, 240)])
+        self.split.setSizes([top, mid, max(total - top - mid, 320)])
 
     def resizeEvent(self, event: QtGui.QResizeEvent) -> None:  # noqa: N802
         super().resizeEvent(event)

@@ -123,6 +123,7 @@ class CommandsMixin:
         an = mb.addMenu("&Analysis")
         an.addAction(self.act_reset_window)
         an.addAction(self.act_cancel)
+        self._add_bench_analysis_items(an)
         h = mb.addMenu("&Help")
         for a in (self.act_safety, self.act_keys, self.act_defs, self.act_about):
             h.addAction(a)

@@ -160,6 +160,42 @@ class CycleFits:
         return before != self.step
 
 
+class PredictionLayer:
+    """A predicted ramp (``whatif.ChangePrediction``) drawn dashed: its voltage over the
+    trace and its residual from its own best-fit line over the residual strip, both
+    placed at the shown cycle's ramp start."""
+
+    def __init__(self, trace_plot: pg.PlotItem, residual_plot: pg.PlotItem) -> None:
+        style = QtCore.Qt.PenStyle.DashLine
+        self.trace = pg.PlotDataItem(pen=pen(theme.PREDICTION, 2.2, style))
+        self.residual = pg.PlotDataItem(pen=pen(theme.PREDICTION, 2.2, style))
+        for item in (self.trace, self.residual):
+            item.setZValue(5)
+        trace_plot.addItem(self.trace)
+        residual_plot.addItem(self.residual)
+        self.label = ""
+        self.prediction: Any = None
+        self._t = self._v = self._rt = self._r = np.zeros(0)
+
+    def set(self, prediction: Any, label: str, window: tuple[float, float]) -> None:
+        """Take a prediction (None removes it); ``window`` the fit window's fractions."""
+        from .whatif_jobs import residual_of
+        self.prediction, self.label = prediction, label if prediction is not None else ""
+        if prediction is None:
+            self._t = self._v = self._rt = self._r = np.zeros(0)
+        else:
+            self._t = np.asarray(prediction.time_s, dtype=float)
+            self._v = np.asarray(prediction.voltage_v, dtype=float)
+            self._rt, self._r = residual_of(self._t, self._v, window)
+
+    def place(self, start_s: float) -> None:
+        self.trace.setData(start_s + self._t, self._v)
+        self.residual.setData(start_s + self._rt, self._r)
+
+    def largest_residual_v(self) -> float:
+        return float(np.max(np.abs(self._r))) if self._r.size else 0.0
+
+
 def _css(colour: Any) -> str:
     if isinstance(colour, tuple):
         r, g, b = colour[:3]
@@ -171,7 +207,8 @@ def _css(colour: Any) -> str:
 
 def key_html(entries: list[tuple[str, Any, str]]) -> str:
     """HTML for a one-line key: a coloured mark, then its words, for each entry."""
-    marks = {"line": "&#9472;&#9472;", "thin": "&#9472;", "dot": "&#9679;", "box": "&#9632;"}
+    marks = {"line": "&#9472;&#9472;", "thin": "&#9472;", "dot": "&#9679;", "box": "&#9632;",
+             "dash": "&#9588;&#9588;&#9588;"}
     parts = [f"<span style='color:{_css(c)}; font-weight:bold'>{marks[k]}</span>"
              f"<span style='color:{theme.PLOT_FOREGROUND}'>&nbsp;{text}</span>"
              for k, c, text in entries]

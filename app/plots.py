@@ -28,7 +28,7 @@ from PySide6 import QtCore
 
 from . import theme
 from .jobs import TraceData
-from .plotparts import CycleFits, PercentAxis, TraceCurve, key_html, ordinal
+from .plotparts import CycleFits, PercentAxis, PredictionLayer, TraceCurve, key_html, ordinal
 from .plotparts import pen as _pen
 
 if TYPE_CHECKING:
@@ -94,6 +94,7 @@ class PlotArea(pg.GraphicsLayoutWidget):
         vb.setAutoVisible(y=True)
 
         # Keys sit in the plots' title rows, where they can never hide data.
+        self.prediction = PredictionLayer(self.trace_plot, self.residual_plot)
         self._update_keys()
 
         # Trace: pen width 1; downsampling and clipping are set after adding.
@@ -175,6 +176,8 @@ class PlotArea(pg.GraphicsLayoutWidget):
             item.setData([], [])
         self.cycle_fits.set_analysis(None)
         self.cycle_fits.clear()
+        self.prediction.set(None, "", (0.0, 1.0))
+        self.prediction.place(0.0)
         self._update_keys()
         for item in (self.band, self.band_copy, self.cycle_fill, self.noise_band):
             item.hide()
@@ -265,16 +268,35 @@ class PlotArea(pg.GraphicsLayoutWidget):
         if fits:
             entries.append(("thin", theme.FIT_LINE_OTHER, fits))
         entries.append(("box", theme.BAND_FILL, "analysis window"))
+        if self.prediction.label:
+            entries.append(("dash", theme.PREDICTION, f"predicted: {self.prediction.label}"))
         key = key_html(entries)
         if key != self._trace_key:
             self._trace_key = key
             self.trace_plot.setTitle(key, size="9pt")
-        if self._residual_key is None:
-            self._residual_key = key_html([
-                ("dot", theme.RESIDUAL_POINTS, "averaged cycle − its line, one dot per phase bin"),
-                ("line", theme.RESIDUAL_SMOOTH, "systematic part"),
-                ("box", theme.NOISE_BAND, "resolution floor")])
-            self.residual_plot.setTitle(self._residual_key, size="9pt")
+        below = [("dot", theme.RESIDUAL_POINTS, "averaged cycle − its line, one dot per phase bin"),
+                 ("line", theme.RESIDUAL_SMOOTH, "systematic part"),
+                 ("box", theme.NOISE_BAND, "resolution floor")]
+        if self.prediction.label:
+            below.append(("dash", theme.PREDICTION, "predicted − its line"))
+        key = key_html(below)
+        if key != self._residual_key:
+            self._residual_key = key
+            self.residual_plot.setTitle(key, size="9pt")
+
+    def set_prediction(self, prediction: Any, label: str = "") -> None:
+        """Draw a predicted ramp (``whatif.ChangePrediction``) dashed over the shown cycle,
+        or remove it (None)."""
+        a = self._analysis
+        if a is None or prediction is None:
+            self.prediction.set(None, "", (0.0, 1.0))
+        else:
+            T = float(a.figures.ramp_time_s)
+            window = (a.figures.window_start_s / T, a.figures.window_end_s / T)
+            self.prediction.set(prediction, label, window)
+        self.prediction.place(self.cycle_span(self._shown)[0] if self.n_cycles else 0.0)
+        self._update_keys()
+        self.fit_residual_y()
 
     def cycle_span(self, i: int) -> tuple[float, float]:
         """Start of cycle ``i``'s ramp and end of its retrace, absolute seconds."""
@@ -299,6 +321,7 @@ class PlotArea(pg.GraphicsLayoutWidget):
         x = start + np.asarray(av.time_s, dtype=float)
         self.residual_points.setData(x, np.asarray(av.residual_true_v, dtype=float))
         self.residual_smooth.setData(x, np.asarray(av.smoothed_residual_true_v, dtype=float))
+        self.prediction.place(start)
 
     def _place_band(self, a: float, b: float, lo: float, hi: float) -> None:
         self._placing_band = True
@@ -372,7 +395,7 @@ class PlotArea(pg.GraphicsLayoutWidget):
         floor = float(a.noise.nonlinearity_floor_pct) / 100.0 * float(a.figures.fitted_span_v)
         m = max(float(np.max(np.abs(inside))) if inside.size else 0.0,
                 float(np.max(np.abs(sm))) if sm.size else 0.0,
-                floor if math.isfinite(floor) else 0.0)
+                floor if math.isfinite(floor) else 0.0, self.prediction.largest_residual_v())
         if m > 0 and math.isfinite(m):
             self.residual_plot.setYRange(-1.15 * m, 1.15 * m, padding=0)
         else:

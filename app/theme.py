@@ -30,6 +30,8 @@ RESIDUAL_POINTS = (96, 104, 118, 150)
 RESIDUAL_SMOOTH = "#6b2d5c"
 NOISE_BAND = (90, 120, 160, 45)
 ZERO_LINE = (58, 63, 71, 120)
+#: A predicted ramp ("What it would take"), drawn dashed over the measured one.
+PREDICTION = "#1f6f8b"
 
 #: Colours of the self-check's verdicts: one for every verdict that agrees with
 #: the stated parts (``trueslope.core.selfcheck.AGREES``), one for every verdict

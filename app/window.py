@@ -167,6 +167,7 @@ class MainWindow(BenchMixin, CircuitMixin, NavigationMixin, CommandsMixin,
         self.findings.form.context_changed.connect(self._on_context)
         self.findings.form.stale_changed.connect(self._on_stale)
         self.findings.form.copy_requested.connect(self._copy_last_circuit)
+        self.findings.whatif.prediction_changed.connect(self.plots.set_prediction)
         self.cycles.exclusion_requested.connect(self._on_exclusion)
         # Typing 45 must not become 4 % silently: the box takes it, _on_trim clamps and says so.
         self.trim_box.setMaximum(99.0)
@@ -452,6 +453,7 @@ class MainWindow(BenchMixin, CircuitMixin, NavigationMixin, CommandsMixin,
 
     def closeEvent(self, event: QtGui.QCloseEvent) -> None:  # noqa: N802
         self.runner.shutdown()
+        self.findings.whatif.shutdown()
         self._shutdown_bench()
         self.store.set_geometry("geometry", self.saveGeometry())
         self.store.set_geometry("split_main", self.main_split.saveState())

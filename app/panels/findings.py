@@ -1,5 +1,6 @@
-"""The findings: the diagnosis page (its line, explanation and next checks) and the
-self-check page (the circuit-context form over the self-check).
+"""The findings: the diagnosis page (its line, explanation and next checks, and what it
+would take, :mod:`.whatif`) and the self-check page (the circuit-context form over the
+self-check).
 
 It only reads a finished :class:`~trueslope.core.results.Analysis`. Every
 sentence comes from :mod:`trueslope.core.report` (the diagnosis line the
@@ -24,6 +25,7 @@ from trueslope.core.selfcheck import DISAGREES
 
 from .. import theme
 from .context_form import ContextForm
+from .whatif import WhatItTakes
 
 if TYPE_CHECKING:
     from trueslope.core.results import Analysis, CheckItem, ContextCheck, Diagnosis
@@ -97,6 +99,8 @@ class FindingsPanel(QtCore.QObject):
         for w in (self.signature, self.line, self.explanation, self.next_checks):
             dl.addWidget(w)
         lay.addWidget(diag)
+        self.whatif = WhatItTakes()
+        lay.addWidget(self.whatif)
         lay.addStretch(1)
 
         self.check_page, lay = _page()
@@ -153,6 +157,7 @@ class FindingsPanel(QtCore.QObject):
         steps = [html.escape(step) for step in next_checks(d)]
         self.next_checks.setText(_bullets("Next checks", steps) if steps else "")
         self._set_check(analysis.context_check, d)
+        self.whatif.set_analysis(analysis)
 
     def _set_check(self, cc: ContextCheck | None, d: Diagnosis) -> None:
         if cc is None:
