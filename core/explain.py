@@ -12,6 +12,8 @@ model                       shared across the set            free in each captur
 ``voltage-coefficient``     ``beta``, capacitance per volt    start level, slope
 ``relaxation-1``            one Dow branch: ``k``, ``tau``   start level, slope
 ``relaxation-2``            two branches                     start level, slope
+``relaxation-spread``       branches spread evenly per       start level, slope
+                            decade (their density)
 ==========================  ===============================  =========================
 
 The shapes and their physics are in :mod:`relaxation`. Every capture's averaged cycle
@@ -46,6 +48,7 @@ from .circuit import CircuitContext
 from .diagnose import BIC_MARGIN, window_data
 from .errors import AnalysisError
 from .explain_levels import LevelCheck, level_check, relaxation_cause
+from .explain_params import Parameter, covariance, parameters
 from .fit import LegendreSeries
 from .jsonable import ToDict
 from .models import MAX_POLY_DEGREE
@@ -54,13 +57,12 @@ from .results import Analysis
 #: The cause each model stands for; a relaxation is resolved by :func:`_relaxation_cause`.
 MODEL_CAUSE = {"line": "linear", "shunt-loading": "shunt-loading",
                "voltage-coefficient": "voltage-coefficient",
-               "relaxation-1": "relaxation", "relaxation-2": "relaxation"}
+               "relaxation-spread": "relaxation", "relaxation-1": "relaxation",
+               "relaxation-2": "relaxation"}
 #: Largest absorption amplitude ``A = k / (1 - k)`` tried (k = 50 %).
 MAX_AMPLITUDE = 1.0
 #: How near the best other model one absorption branch must come for a second to be tried.
-SECOND_BRANCH_BIC = 50.0
-#: z-value of a two-sided 95 % interval (normal).
-Z95 = 1.959964
+SECOND_BRANCH_BIC = 400.0
 
 
 @dataclass(frozen=True)
@@ -80,17 +82,7 @@ class Member:
     window: tuple[float, float]
     capacitance_f: float | None
     reset_level_v: float | None
-
-
-@dataclass(frozen=True)
-class Parameter(ToDict):
-    """A shared parameter: ``value`` with its 95 % interval ``low``..``high``, SI ``unit``."""
-
-    name: str
-    value: float
-    low: float
-    high: float
-    unit: str
+    band_s: tuple[float, float] = (0.0, 0.0)
 
 
 @dataclass(frozen=True)
@@ -99,7 +91,8 @@ class ModelResult(ToDict):
 
     ``bic`` over every bin of the set; ``delta_bic`` above the best model's;
     ``chi2_per_dof``; ``parameters`` (physical, shared); ``theta`` the raw shared
-    parameters (internal) and their ``covariance``; ``curves_v`` each capture's fitted
+    parameters (internal) and their ``covariance``; ``band_s`` the time constants an even
+    spread of branches covers (``relaxation.spread_band``); ``curves_v`` each capture's fitted
     curve on its window's bins; ``coef`` each capture's (start level, slope scale).
     """
 
@@ -112,6 +105,7 @@ class ModelResult(ToDict):
     curves_v: tuple[np.ndarray, ...] = ()
     coef: tuple[tuple[float, float], ...] = ()
     covariance: np.ndarray | None = None
+    band_s: tuple[float, float] = (0.0, 0.0)
 
     JSON_SKIP = ("theta", "curves_v", "coef", "covariance")
 
@@ -204,11 +198,8 @@ def _shape(model: str, theta: np.ndarray, m: Member, slope: float,
         return rx.shunt_shape(t, tau)
     if model == "voltage-coefficient":
         return rx.voltage_shape(t, float(theta[0]), slope)
-    return rx.relaxation_shape(t, _branches(theta), m.ramp_time_s, m.retrace_time_s)
-
-
-def _branches(theta: np.ndarray) -> list[tuple[float, float]]:
-    return [(float(theta[i]), math.exp(float(theta[i + 1]))) for i in range(0, len(theta), 2)]
+    return rx.relaxation_shape(t, rx.branches_of(model, theta, m.band_s), m.ramp_time_s,
+                               m.retrace_time_s)
 
 
 def _project(model: str, theta: np.ndarray, m: Member, by_resistance: bool
@@ -299,6 +290,10 @@ def _fit_model(model: str, members: Sequence[Member], by_resistance: bool,
     ltau_lo, ltau_hi = math.log(max(0.5 * bin_s, 1e-12)), math.log(3.0 * t_hi)
     amps = np.concatenate([-np.geomspace(0.3, 1e-5, 12), np.geomspace(1e-5, MAX_AMPLITUDE, 14)])
     lo1, hi1 = np.array([-0.5, ltau_lo]), np.array([MAX_AMPLITUDE, ltau_hi])
+    if model == "relaxation-spread":
+        lo, hi = np.log([1e-6]), np.log([0.2])
+        start = _grid_start(fit, [np.linspace(lo[0], hi[0], 30)])
+        return _refine(fit, start, lo, hi), fit
     if model == "relaxation-1":
         start = _grid_start(fit, [amps, np.linspace(ltau_lo, ltau_hi, 24)])
         return _refine(fit, start, lo1, hi1), fit
@@ -316,48 +311,6 @@ def _fit_model(model: str, members: Sequence[Member], by_resistance: bool,
 
 
 # ------------------------------------------------------------------ the set's answer
-def _covariance(fit: _SetFit, theta: np.ndarray, dof: int, chi2: float) -> np.ndarray:
-    """``(J^T J)^-1`` of the projected residuals (central differences), widened by
-    ``chi2 / dof`` when that exceeds 1."""
-    p = theta.size
-    if p == 0:
-        return np.zeros((0, 0))
-    jac = np.empty((fit.n, p))
-    for i in range(p):
-        h = 1e-5 * max(1.0, abs(theta[i]))
-        up, dn = theta.copy(), theta.copy()
-        up[i] += h
-        dn[i] -= h
-        jac[:, i] = (fit.residuals(up) - fit.residuals(dn)) / (2 * h)
-    cov = np.linalg.pinv(jac.T @ jac)
-    return cov * max(1.0, chi2 / max(dof, 1))
-
-
-def _parameters(model: str, theta: np.ndarray, cov: np.ndarray,
-                by_resistance: bool) -> tuple[Parameter, ...]:
-    se = np.sqrt(np.clip(np.diag(cov), 0.0, None)) if theta.size else np.zeros(0)
-
-    def positive(name: str, i: int, unit: str) -> Parameter:
-        v = float(theta[i])
-        d = min(Z95 * float(se[i]), 700.0)  # an unbounded interval stays finite
-        return Parameter(name, math.exp(v), math.exp(v - d), math.exp(v + d), unit)
-
-    def signed(name: str, i: int, unit: str, sign: float = 1.0) -> Parameter:
-        v, d = sign * float(theta[i]), Z95 * float(se[i])
-        return Parameter(name, v, v - d, v + d, unit)
-
-    if model == "shunt-loading":
-        return (positive("shunt_ohm" if by_resistance else "tau_s", 0,
-                         "Ω" if by_resistance else "s"),)
-    if model == "voltage-coefficient":
-        return (signed("voltage_coefficient_per_v", 0, "1/V", -1.0),)
-    out: list[Parameter] = []
-    for j in range(0, theta.size, 2):
-        n = j // 2 + 1
-        out += [signed(f"amplitude_{n}", j, ""), positive(f"tau_{n}_s", j + 1, "s")]
-    return tuple(out)
-
-
 def _worth_a_second_branch(results: list[ModelResult]) -> bool:
     """A second branch is fitted only where one branch comes near the best other model
     (within :data:`SECOND_BRANCH_BIC`): elsewhere it cannot win and costs the most."""
@@ -370,6 +323,10 @@ def fit_set(members: Sequence[Member]) -> tuple[list[ModelResult], bool]:
     """Every model fitted to the set, best first, and whether the shunt shares ``R``."""
     by_resistance = all(m.capacitance_f is not None for m in members)
     n = int(sum(m.time_s.size for m in members))
+    if members[0].band_s == (0.0, 0.0):
+        band = rx.spread_band(members)
+        members = [dataclasses.replace(m, band_s=band) for m in members]
+    band = members[0].band_s
     results: list[ModelResult] = []
     seed = None
     for model in MODEL_CAUSE:
@@ -381,16 +338,17 @@ def fit_set(members: Sequence[Member]) -> tuple[list[ModelResult], bool]:
         chi2 = fit.cost(theta)
         p = 2 * len(members) + theta.size
         dof = n - p
-        cov = _covariance(fit, theta, dof, chi2)
+        cov = covariance(fit.residuals, fit.n, theta, dof, chi2)
         outs = [_project(model, theta, m, by_resistance) for m in members]
         if any(o is None for o in outs) or not math.isfinite(chi2):
             continue
         results.append(ModelResult(
             model=model, bic=chi2 + p * math.log(n), delta_bic=0.0,
-            chi2_per_dof=chi2 / max(dof, 1), parameters=_parameters(model, theta, cov,
-                                                                    by_resistance),
+            chi2_per_dof=chi2 / max(dof, 1), parameters=parameters(model, theta, cov,
+                                                                   by_resistance),
             theta=tuple(float(v) for v in theta), curves_v=tuple(o[2] for o in outs),
-            coef=tuple((float(o[1][0]), float(o[1][1])) for o in outs), covariance=cov))
+            coef=tuple((float(o[1][0]), float(o[1][1])) for o in outs), covariance=cov,
+            band_s=band))
     results.sort(key=lambda r: r.bic)
     top = results[0].bic
     return [dataclasses.replace(r, delta_bic=r.bic - top) for r in results], by_resistance
@@ -450,6 +408,8 @@ def explain(analyses: Sequence[Analysis],
             raise AnalysisError(f"{a.source}: the fit window holds too few points to "
                                 f"compare its shape with the others")
         members.append(m)
+    band = rx.spread_band(members)
+    members = [dataclasses.replace(m, band_s=band) for m in members]
     given = [m.capacitance_f is not None for m in members]
     if any(given) and not all(given):
         raise AnalysisError("give the capacitance for every capture or for none: the shunt's "

@@ -48,8 +48,7 @@ def level_check(best, members: Sequence) -> LevelCheck | None:
     rows = [(m, c) for m, c in zip(members, best.coef) if m.reset_level_v is not None]
     if not rows:
         return None
-    branches = [(float(best.theta[i]), math.exp(float(best.theta[i + 1])))
-                for i in range(0, len(best.theta), 2)]
+    branches = rx.branches_of(best.model, best.theta, best.band_s)
     meas, pred, unc = [], [], []
     for m, (a, s) in rows:
         meas.append(a - m.reset_level_v)

@@ -73,7 +73,8 @@ def _nonlinearity(t: np.ndarray, v: np.ndarray) -> float:
 
 
 def predicted_pct(model: str, theta: Sequence[float], member, change: str, factor: float,
-                  by_resistance: bool) -> float | None:
+                  by_resistance: bool, band_s: tuple[float, float] = (0.0, 0.0)
+                  ) -> float | None:
     """The nonlinearity ``model`` predicts for ``member`` with ``change`` scaled by
     ``factor``, %; None when that ramp would never reach its upper level."""
     s, swing, tr = member.slope_v_per_s, member.swing_v, member.retrace_time_s
@@ -102,8 +103,7 @@ def predicted_pct(model: str, theta: Sequence[float], member, change: str, facto
         return None if g is None or not T > 0 else _nonlinearity(t, s * g)
     T = swing / s
     t = np.linspace(w0 * T, w1 * T, POINTS)
-    branches = [(float(theta[i]), math.exp(float(theta[i + 1])))
-                for i in range(0, len(theta), 2)]
+    branches = rx.branches_of(model, theta, band_s)
     return _nonlinearity(t, s * rx.relaxation_shape(t, branches, T, tr))
 
 
@@ -113,8 +113,10 @@ def next_capture(best, rival, members: Sequence, by_resistance: bool) -> NextCap
     floor = base.floor_pct
     top: NextCapture | None = None
     for change, factor in CANDIDATES:
-        a = predicted_pct(best.model, best.theta, base, change, factor, by_resistance)
-        b = predicted_pct(rival.model, rival.theta, base, change, factor, by_resistance)
+        a = predicted_pct(best.model, best.theta, base, change, factor, by_resistance,
+                          best.band_s)
+        b = predicted_pct(rival.model, rival.theta, base, change, factor, by_resistance,
+                          rival.band_s)
         if a is None and b is None:
             continue
         # a ramp that stalls under one model and not the other separates them outright
@@ -139,7 +141,7 @@ def complete(explanation, members: Sequence, decided: bool):
     if explanation.cause in ABSORBING:
         base = members[0]
         best = explanation.model(explanation.best_model)
-        fig = absorption_of(best.theta, base)
+        fig = absorption_of(best.model, best.theta, best.band_s, base)
         if fig is not None:
             changes["absorption"] = fig
             changes["absorption_spread"] = spread_of(best, base)
@@ -158,14 +160,15 @@ class AbsorptionSpread(ToDict):
     standard_recovery_high_pct: float
 
 
-def absorption_of(theta: Sequence[float], base):
-    """The absorption figures (``absorption.absorption_figures``) of the branches ``theta``
-    (``A``, ``ln tau`` pairs) at the capture ``base``'s time scale, ``C_i / C = A / (1 + A)``
-    (``relaxation``). None when no branch gives charge back or the figures cannot be made."""
+def absorption_of(model: str, theta: Sequence[float], band_s: tuple[float, float], base):
+    """The absorption figures (``absorption.absorption_figures``) of a relaxation model's
+    branches (``relaxation.branches_of``) at the capture ``base``'s time scale,
+    ``C_i / C = A / (1 + A)``. None when no branch gives charge back or the figures cannot
+    be made."""
     from .absorption import absorption_figures
     from .errors import TrueslopeError
-    branches = [(theta[i] / (1.0 + theta[i]), math.exp(theta[i + 1]))
-                for i in range(0, len(theta), 2) if theta[i] > 0]
+    branches = [(a / (1.0 + a), tau) for a, tau in rx.branches_of(model, theta, band_s)
+                if a > 0]
     if not branches:
         return None
     reset = base.retrace_time_s if base.retrace_time_s > 0 else 1e-3 * base.ramp_time_s
@@ -186,7 +189,7 @@ def spread_of(best, base) -> AbsorptionSpread | None:
                                     check_valid="ignore")
     short, standard = [], []
     for theta in draws:
-        fig = absorption_of(theta, base)
+        fig = absorption_of(best.model, theta, best.band_s, base)
         short.append(fig.short_recovery_pct if fig is not None else 0.0)
         standard.append(fig.standard_recovery_pct if fig is not None else 0.0)
     lo, hi = 2.5, 97.5

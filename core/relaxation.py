@@ -47,8 +47,14 @@ import math
 
 import numpy as np
 
-__all__ = ["lag_factor", "relaxation_shape", "shunt_shape", "probe_start_offset",
-           "voltage_shape"]
+__all__ = ["branches_of", "lag_factor", "relaxation_shape", "shunt_shape",
+           "probe_start_offset", "spread_band", "spread_branches", "voltage_shape"]
+
+#: Branches a decade of an even spread (the density is what the set measures).
+SPREAD_PER_DECADE = 4
+#: An even spread reaches this many times the longest ramp time: slower branches only add
+#: capacitance (``D -> -1``) and bend nothing.
+SPREAD_REACH = 30.0
 
 
 def shunt_shape(t: np.ndarray, tau_s: float) -> np.ndarray:
@@ -108,3 +114,30 @@ def probe_start_offset(branches: list[tuple[float, float]], slope_v_per_s: float
     return float(sum(amp * slope_v_per_s * tau * (1.0 + lag_factor(tau, ramp_time_s,
                                                                    retrace_time_s))
                      for amp, tau in branches))
+
+
+def spread_band(members) -> tuple[float, float]:
+    """The time constants an even spread covers for a set: from the shortest reset time
+    (faster branches empty during the reset and only add capacitance) to
+    :data:`SPREAD_REACH` times the longest ramp time, seconds."""
+    resets = [m.retrace_time_s for m in members if m.retrace_time_s > 0]
+    lo = min(resets) if resets else 1e-3 * min(m.ramp_time_s for m in members)
+    return float(lo), float(SPREAD_REACH * max(m.ramp_time_s for m in members))
+
+
+def spread_branches(per_decade: float, band_s: tuple[float, float]) -> list[tuple[float, float]]:
+    """``(A, tau)`` of :data:`SPREAD_PER_DECADE` equal branches a decade over ``band_s``,
+    at the logarithmic middles of equal steps, totalling ``per_decade`` a decade."""
+    lo, hi = band_s
+    decades = math.log10(hi / lo)
+    count = max(1, int(math.ceil(decades * SPREAD_PER_DECADE)))
+    step = decades / count
+    return [(per_decade * step, lo * 10.0 ** (step * (i + 0.5))) for i in range(count)]
+
+
+def branches_of(model: str, theta, band_s: tuple[float, float]) -> list[tuple[float, float]]:
+    """The ``(A, tau)`` branches a relaxation model's shared parameters stand for:
+    ``(A, ln tau)`` pairs, or the log of the density per decade of an even spread."""
+    if model == "relaxation-spread":
+        return spread_branches(math.exp(float(theta[0])), band_s)
+    return [(float(theta[i]), math.exp(float(theta[i + 1]))) for i in range(0, len(theta), 2)]

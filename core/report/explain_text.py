@@ -33,12 +33,14 @@ CAUSE_WORDS = {
 MODEL_WORDS = {"line": "straight line", "shunt-loading": "shunt loading",
                "voltage-coefficient": "voltage coefficient",
                "relaxation-1": "one relaxation branch (absorption or probe)",
-               "relaxation-2": "two relaxation branches (absorption or probe)"}
+               "relaxation-2": "two relaxation branches (absorption or probe)",
+               "relaxation-spread": "relaxation spread evenly over the time constants"}
 #: A shared parameter's label.
 PARAMETER_WORDS = {"shunt_ohm": "resistance across the capacitor",
                    "tau_s": "time constant R C", "voltage_coefficient_per_v":
                    "slope change per volt", "amplitude": "branch strength A = k/(1-k)",
-                   "tau": "branch time constant"}
+                   "tau": "branch time constant",
+                   "absorption_per_decade": "absorption per decade of time constant"}
 #: Causes whose branches are read as absorption.
 ABSORBING = ("dielectric-absorption", "absorption-or-probe")
 #: What to change for the next capture.
