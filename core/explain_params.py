@@ -54,9 +54,11 @@ def parameters(model: str, theta: np.ndarray, cov: np.ndarray,
     se = np.sqrt(np.clip(np.diag(cov), 0.0, None)) if theta.size else np.zeros(0)
 
     def positive(name: str, i: int, unit: str) -> Parameter:
-        v = float(theta[i])
-        d = min(Z95 * float(se[i]), 700.0)  # an unbounded interval stays finite
-        return Parameter(name, math.exp(v), math.exp(v - d), math.exp(v + d), unit)
+        v, d = float(theta[i]), Z95 * float(se[i])
+
+        def e(x: float) -> float:  # an unbounded interval stays finite
+            return math.exp(min(max(x, -700.0), 700.0))
+        return Parameter(name, e(v), e(v - d), e(v + d), unit)
 
     def signed(name: str, i: int, unit: str, sign: float = 1.0) -> Parameter:
         v, d = sign * float(theta[i]), Z95 * float(se[i])
