@@ -33,7 +33,7 @@ MODEL_COLOUR = theme.FIT_LINE
 #: A capture the model does not explain: its plot title's colour.
 UNEXPLAINED_COLOUR = theme.VERDICT_DISAGREES
 #: Captures in one column of plots before a second column starts.
-PLOTS_PER_COLUMN = 4
+PLOTS_PER_COLUMN = 3
 
 
 class ExplainPanel(QtWidgets.QWidget):
@@ -164,9 +164,9 @@ class ExplainPanel(QtWidgets.QWidget):
         rows = math.ceil(n / columns)
         first = None
         for k, c in enumerate(curves):
-            row, col = k % rows, k // rows
+            row, col = divmod(k, columns)  # in reading order
             p = self.graphs.addPlot(row=row, col=col)
-            self._style(p, c, bottom=row == rows - 1 or k == n - 1)
+            self._style(p, c, bottom=k + columns >= n)
             p.addItem(pg.InfiniteLine(0.0, angle=0, pen=pen(theme.ZERO_LINE, 1)),
                       ignoreBounds=True)
             p.plot(c.u, c.residual_pct, pen=None, symbol="o", symbolSize=3, symbolPen=None,

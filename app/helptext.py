@@ -75,7 +75,32 @@ def definitions_html(definitions: dict[str, str] | None = None) -> str:
                        f"</td><td valign='top'>{html.escape(defs[k])}</td></tr>" for k in keys)
         parts.append(f"<h4>{html.escape(name)}</h4>"
                      f"<table cellspacing='0' cellpadding='3' width='100%'>{rows}</table>")
+    rows = "".join(f"<tr><td valign='top' width='34%'><b>{html.escape(name)}</b></td>"
+                   f"<td valign='top'>{html.escape(text)}</td></tr>" for name, text in TOOLS)
+    parts.append(f"<h4>Beyond one capture</h4>"
+                 f"<table cellspacing='0' cellpadding='3' width='100%'>{rows}</table>")
     return "".join(parts)
+
+
+#: Short help for the tools that go past the figures of one capture: (name, what it does).
+TOOLS: tuple[tuple[str, str], ...] = (
+    ("Explain", "On the Bench comparison tab: finds the one cause (shunt loading, a "
+     "capacitance that changes with voltage, dielectric absorption or a probe's "
+     "compensation) that accounts for every selected capture of the same circuit, taken at "
+     "other currents, swings or capacitances, with its circuit values shared by all of them, "
+     "their 95 % intervals and how much worse the other causes fit. Each capture's plot "
+     "shows its averaged ramp minus its best-fit line with the shared model over it; a "
+     "capture the model does not explain is marked. When the set cannot decide, it names "
+     "the capture to take next. Circuit values come from each capture's circuit form; give "
+     "the capacitance for every capture or for none."),
+    ("What it would take", "On the Diagnosis tab, for a bowed ramp: the least total "
+     "resistance across the capacitor, the largest voltage coefficient and the longest ramp "
+     "that keep the nonlinearity within a target (default 0.1 %). Try a change (a 10x probe "
+     "in place of 1x, a current source's output resistance, another capacitance or "
+     "dielectric) to draw the predicted ramp dashed over the measured one, with its "
+     "predicted figures beside the measured ones. Predicting a change needs the capacitance "
+     "in the circuit form."),
+)
 
 
 def scrolling_dialog(parent, title: str, body_html: str):

@@ -268,18 +268,17 @@ class PlotArea(pg.GraphicsLayoutWidget):
         if fits:
             entries.append(("thin", theme.FIT_LINE_OTHER, fits))
         entries.append(("box", theme.BAND_FILL, "analysis window"))
-        if self.prediction.label:
-            entries.append(("dash", theme.PREDICTION, f"predicted: {self.prediction.label}"))
-        key = key_html(entries)
+        # A prediction's key gets a line of its own: the first is full at 1280 px.
+        more = [("dash", theme.PREDICTION, f"predicted: {self.prediction.label}")]
+        key = key_html(entries) + ("<br>" + key_html(more) if self.prediction.label else "")
         if key != self._trace_key:
             self._trace_key = key
             self.trace_plot.setTitle(key, size="9pt")
         below = [("dot", theme.RESIDUAL_POINTS, "averaged cycle − its line, one dot per phase bin"),
                  ("line", theme.RESIDUAL_SMOOTH, "systematic part"),
                  ("box", theme.NOISE_BAND, "resolution floor")]
-        if self.prediction.label:
-            below.append(("dash", theme.PREDICTION, "predicted − its line"))
-        key = key_html(below)
+        more = [("dash", theme.PREDICTION, "predicted ramp − its own best-fit line")]
+        key = key_html(below) + ("<br>" + key_html(more) if self.prediction.label else "")
         if key != self._residual_key:
             self._residual_key = key
             self.residual_plot.setTitle(key, size="9pt")

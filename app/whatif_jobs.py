@@ -36,7 +36,8 @@ if TYPE_CHECKING:
 class ChangeKind:
     """A change the window offers.
 
-    ``label`` words it in the list, ``short`` in the plots' key; ``unit`` is the SI
+    ``label`` words it in the list, ``short`` in the plots' key (``{value}`` stands for
+    the value given); ``unit`` is the SI
     unit of the value the user types (None: no value, or ``"choice"`` for a pick from
     ``choices``, pairs of the value and its words); ``build(value)`` makes the core change.
     """
@@ -56,11 +57,12 @@ CHANGES: tuple[ChangeKind, ...] = (
                "10x probe in place of 1x", None,
                lambda _v: ShuntChange(SCOPE_INPUT_OHM, PROBE_10X_OHM)),
     ChangeKind("source-resistance", "A current source with this output resistance",
-               "source output resistance", "Ω", lambda r: ShuntChange(None, r), "e.g. 50M"),
-    ChangeKind("capacitance", "Another timing capacitance (same current)", "timing capacitance",
-               "F", CapacitanceChange, "e.g. 22n"),
+               "source output resistance {value}", "Ω", lambda r: ShuntChange(None, r),
+               "e.g. 50M"),
+    ChangeKind("capacitance", "Another timing capacitance (same current)",
+               "timing capacitance {value}", "F", CapacitanceChange, "e.g. 22n"),
     ChangeKind("dielectric", "A capacitor of another dielectric (its typical absorption)",
-               "dielectric:", "choice", DielectricChange, choices=tuple(
+               "{value} as the dielectric", "choice", DielectricChange, choices=tuple(
                    (r.dielectric, f"{r.dielectric} (typically {pct(r.low_pct)} to "
                                   f"{pct(r.high_pct)})") for r in DIELECTRIC_ABSORPTION)),
 )

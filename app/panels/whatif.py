@@ -122,9 +122,13 @@ class WhatItTakes(QtWidgets.QGroupBox):
         self.choice.setSizeAdjustPolicy(
             QtWidgets.QComboBox.SizeAdjustPolicy.AdjustToMinimumContentsLengthWithIcon)
         self.choice.setMinimumContentsLength(20)
+        for b in (self.predict_button, self.clear_button):
+            b.setSizePolicy(QtWidgets.QSizePolicy.Policy.Maximum,
+                            QtWidgets.QSizePolicy.Policy.Fixed)
         given = QtWidgets.QHBoxLayout()
         given.addWidget(self.value, 1)
         given.addWidget(self.choice, 1)
+        given.addStretch(0)  # holds the column open when the change needs no value
         grid.addWidget(self.kind, 0, 0, 1, 3)
         grid.addLayout(given, 1, 0)
         grid.addWidget(self.predict_button, 1, 1)
@@ -252,10 +256,10 @@ class WhatItTakes(QtWidgets.QGroupBox):
         try:
             if k.unit == "choice":
                 value = self.choice.currentData()
-                label = f"{k.short} {value}"
+                label = k.short.format(value=value)
             elif k.unit is not None:
                 value = parse_si(self.value.text(), k.unit)
-                label = f"{k.short} {si(value, k.unit)}"
+                label = k.short.format(value=si(value, k.unit))
             else:
                 value, label = None, k.short
             change = k.build(value)

@@ -239,3 +239,9 @@ def test_without_the_capacitance_the_field_to_fill_is_named(qtbot, window, tmp_p
     assert "fill in Capacitance" in w.note.text()
     qtbot.waitUntil(lambda: bool(w.lines), timeout=10000)  # still says what it would take
     assert "give the capacitance" in " ".join(w.lines)
+
+
+def test_help_defines_explain_and_what_it_would_take():
+    from trueslope.app import helptext
+    body = helptext.definitions_html()
+    assert "<b>Explain</b>" in body and "<b>What it would take</b>" in body
