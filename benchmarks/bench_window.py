@@ -3,6 +3,7 @@
 Usage::
 
     QT_QPA_PLATFORM=offscreen .venv/bin/python benchmarks/bench_window.py [--sizes 1e6,1e7] [--csv]
+        [--cycles 100000] [--sample]
 
 For each size it writes a synthetic capture (a current source charging a
 capacitor through its leakage, reset by a comparator; invented demo data) to
@@ -206,21 +207,30 @@ def main(argv: list[str] | None = None) -> int:
     p = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     p.add_argument("--sizes", default="1e6,1e7", help="sample counts, comma separated")
     p.add_argument("--csv", action="store_true", help="also time a CSV of the smallest size")
+    p.add_argument("--cycles", type=int, default=20, help="cycles in each capture (default 20)")
+    p.add_argument("--sample", action="store_true",
+                   help="first open the bundled sample_captures/film_cap_ramp.csv")
     args = p.parse_args(argv)
     sizes = [int(float(s)) for s in args.sizes.split(",") if s.strip()]
 
-    from trueslope.app.launch import make_app
+    t_start = time.perf_counter()
+    from trueslope.app.launch import make_app, preload_analysis
+    preload_analysis()  # as launch() does: the analysis imports overlap Qt's start
     app = make_app()
-    print(f"Qt platform: {app.platformName()}")
+    print(f"Qt platform: {app.platformName()} (Qt and the window's modules imported in "
+          f"{time.perf_counter() - t_start:.2f} s)")
+    if args.sample:
+        bench_file(app, Path(__file__).resolve().parents[1] / "sample_captures" /
+                   "film_cap_ramp.csv", "bundled sample (CSV)", None)
     with tempfile.TemporaryDirectory() as tmp:
         for n in sizes:
-            v, dt = synthetic_ramp(n)
+            v, dt = synthetic_ramp(n, cycles=args.cycles)
             path = Path(tmp) / f"ramp_{n}.npy"
             np.save(path, v)
             bench_file(app, path, f"{n / 1e6:g} M samples (.npy)", dt)
         if args.csv and sizes:
             n = min(sizes)
-            v, dt = synthetic_ramp(n)
+            v, dt = synthetic_ramp(n, cycles=args.cycles)
             path = Path(tmp) / f"ramp_{n}.csv"
             t0 = time.perf_counter()
             _write_csv(path, v, dt)

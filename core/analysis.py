@@ -271,7 +271,12 @@ def _analyse(capture: Capture, settings: Settings, progress: ProgressFn | None,
     n_all = seg.ramp_start_s.size
     groups = floor_groups(n_all)
     cyc, sums = kernel(seg, 0.15, 0.6)
-    noise_v, step = estimate_noise_rms(x), adc_step(v)
+    # the raw record's noise is the measurement frame's unless spikes were bridged (a
+    # mirror changes no difference's size); its ADC step is the same samples'
+    noise_v = seg.noise_rms_v
+    if noise_v is None or seg.spike_samples.size:
+        noise_v = estimate_noise_rms(x)
+    step = seg.adc_step_v if seg.noise_rms_v is not None else adc_step(v)
     steady = steady_state(x, dt, t0, seg, cyc, noise_v, step)
     seg = dataclasses.replace(subset(seg, steady.keep), unsteady_start_s=steady.start_s,
                               unsteady_end_s=steady.end_s)

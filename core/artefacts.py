@@ -125,21 +125,47 @@ def typical_dwell(x: np.ndarray) -> float:
     return sub.size / (changes + 1)
 
 
-def find_clipping(x: np.ndarray, samples_per_code: float = 1.0) -> Clipping:
+@dataclass(frozen=True)
+class Extremes:
+    """Where a record sits at its top and bottom values: those values, the indices of the
+    samples there, and the record's typical dwell (see :func:`find_clipping`)."""
+
+    top_v: float
+    top_at: np.ndarray
+    bottom_v: float
+    bottom_at: np.ndarray
+    dwell: float
+
+
+def extremes(x: np.ndarray, block: int = 1 << 16) -> Extremes:
+    """The samples at the record's extreme values, found a cache-sized block at a time."""
+    top, bottom = float(np.max(x)), float(np.min(x))
+    t_lim = top - 1e-12 * max(1.0, abs(top))
+    b_lim = bottom + 1e-12 * max(1.0, abs(bottom))
+    ups, downs = [], []
+    for a in range(0, x.size, block):
+        part = x[a:a + block]
+        ups.append(np.flatnonzero(part >= t_lim) + a)
+        downs.append(np.flatnonzero(part <= b_lim) + a)
+    return Extremes(top, np.concatenate(ups), bottom, np.concatenate(downs), typical_dwell(x))
+
+
+def find_clipping(x: np.ndarray, samples_per_code: float = 1.0,
+                  at: Extremes | None = None) -> Clipping:
     """Clipping at the record's top or bottom: runs at the extreme value longer than
     ``max(MIN_CLIP_RUN, CLIP_DWELL_FACTOR x max(typical dwell, samples_per_code))``, at
     least :data:`MIN_CLIP_RUNS` of them.
 
     ``samples_per_code`` is how long the ramp takes to cross one ADC code (the step over
-    the slope per sample): a ramp that merely reaches the top code sits there that long."""
+    the slope per sample): a ramp that merely reaches the top code sits there that long.
+    ``at`` is :func:`extremes` of ``x`` when already found."""
     mask = np.zeros(x.size, dtype=bool)
     if x.size < 16:
         return Clipping(None, None, mask)
-    longest = max(MIN_CLIP_RUN, CLIP_DWELL_FACTOR * max(typical_dwell(x), samples_per_code))
+    at = at if at is not None else extremes(x)
+    longest = max(MIN_CLIP_RUN, CLIP_DWELL_FACTOR * max(at.dwell, samples_per_code))
     levels: list[float | None] = []
-    for v, at_extreme in ((float(np.max(x)), lambda v, tol: x >= v - tol),
-                          (float(np.min(x)), lambda v, tol: x <= v + tol)):
-        idx = np.flatnonzero(at_extreme(v, 1e-12 * max(1.0, abs(v))))
+    for v, idx in ((at.top_v, at.top_at), (at.bottom_v, at.bottom_at)):
         if idx.size <= MIN_CLIP_RUNS * longest:  # too few samples there for long runs
             levels.append(None)
             continue

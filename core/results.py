@@ -92,6 +92,8 @@ class Segmentation(ToDict):
     unsteady_start_s, unsteady_end_s : (float, float) or None
         A start (power-up, settling) or end (generator switched off) left out
         because the waveform there is not the steady one: its time span.
+    noise_rms_v, adc_step_v : float or None
+        The record's sample noise and ADC step as segmentation found them (not measured again).
     """
 
     direction: str
@@ -108,6 +110,8 @@ class Segmentation(ToDict):
     clipped_bottom_v: float | None = None
     unsteady_start_s: tuple[float, float] | None = None
     unsteady_end_s: tuple[float, float] | None = None
+    noise_rms_v: float | None = None
+    adc_step_v: float | None = None
 
     @property
     def ramp_time_s(self) -> np.ndarray:

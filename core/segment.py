@@ -13,7 +13,7 @@ import dataclasses
 
 import numpy as np
 
-from .artefacts import Clipping, find_clipping, find_spikes, without_spikes
+from .artefacts import Clipping, extremes, find_clipping, find_spikes, without_spikes
 from .edges import (fast_corners, interpolate_crossing, local_crossing, slow_corners,
                     window_argext)
 from .errors import NoFullCycleError, NotASawtoothError
@@ -33,11 +33,33 @@ MIN_EDGE_RATIO = 4.0
 FAST_EDGE_SAMPLES = 4.0
 
 
+#: Samples compared at a time when looking for threshold crossings: the block's boolean
+#: arrays stay in the processor's cache, and no whole-record temporary is made.
+CROSSING_BLOCK = 1 << 16
+
+
+def _enter_leave(x: np.ndarray, level: float, above: bool = True, leaving: bool = True
+                 ) -> tuple[np.ndarray, np.ndarray]:
+    """For ``c = x > level`` (``x < level`` when not ``above``): every ``i >= 1`` with
+    ``c[i]`` and not ``c[i - 1]`` (entering), and every ``k`` with ``c[k]`` and not
+    ``c[k + 1]`` (the last sample before leaving; empty unless ``leaving``)."""
+    enter, leave = [], [np.zeros(0, dtype=np.int64)]
+    for a in range(0, max(x.size - 1, 0), CROSSING_BLOCK):
+        part = x[a:a + CROSSING_BLOCK + 1]
+        c = part > level if above else part < level
+        was = c[:-1]
+        enter.append(np.flatnonzero(c[1:] > was) + (a + 1))
+        if leaving:
+            leave.append(np.flatnonzero(was > c[1:]) + a)
+    if not enter:
+        return np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64)
+    return np.concatenate(enter), np.concatenate(leave)
+
+
 def _crossings_up(x: np.ndarray, level: float) -> tuple[np.ndarray, np.ndarray]:
     """Every upward crossing of ``level``: index i of the first sample above, and the
     fractional index where the segment (i-1, i) crosses."""
-    b = x > level
-    i = np.flatnonzero(b[1:] & ~b[:-1]) + 1
+    i = _enter_leave(x, level, leaving=False)[0]
     return i, interpolate_crossing(x, i, level)
 
 
@@ -99,15 +121,11 @@ def _transitions(x: np.ndarray, lower: float, upper: float) -> tuple[np.ndarray,
         and the last sample below ``lower`` before it; likewise for
         high-to-low transitions.
     """
-    above = x > upper
-    below = x < lower
-    enter_hi = np.flatnonzero(above[1:] & ~above[:-1]) + 1
-    enter_lo = np.flatnonzero(below[1:] & ~below[:-1]) + 1
-    leave_hi = np.flatnonzero(above[:-1] & ~above[1:])
-    leave_lo = np.flatnonzero(below[:-1] & ~below[1:])
-    if above[0]:
+    enter_hi, leave_hi = _enter_leave(x, upper)
+    enter_lo, leave_lo = _enter_leave(x, lower, above=False)
+    if x.size and x[0] > upper:
         enter_hi = np.concatenate(([0], enter_hi))
-    if below[0]:
+    if x.size and x[0] < lower:
         enter_lo = np.concatenate(([0], enter_lo))
     ev_idx = np.concatenate((enter_hi, enter_lo))
     ev_lab = np.concatenate((np.ones(enter_hi.size, np.int8), np.zeros(enter_lo.size, np.int8)))
@@ -166,23 +184,25 @@ def segment(v: np.ndarray, sample_interval_s: float, t0_s: float = 0.0,
     raw = np.asarray(v, dtype=float)
     noise = estimate_noise_rms(raw)
     # one histogram gives the extremes and, without spikes, the candidate levels too
-    extremes = ramp_extremes_at(raw, (0.002, 0.05))
-    lo, hi = extremes[0]
+    quantiles = ramp_extremes_at(raw, (0.002, 0.05))
+    lo, hi = quantiles[0]
     step = _check_not_flat(raw, lo, hi, noise)
     spikes = find_spikes(raw, hi - lo, noise)
     x = without_spikes(raw, spikes)
     if spikes.size:
-        extremes = ramp_extremes_at(x, (0.002, 0.05))
-    clip = find_clipping(x)
+        quantiles = ramp_extremes_at(x, (0.002, 0.05))
+    ends = extremes(x)
+    clip = find_clipping(x, at=ends)
     if sync is not None:
         lo, hi = ramp_extremes(x) if spikes.size else (lo, hi)
         seg = _segment_with_sync(x, np.asarray(sync, dtype=float), sample_interval_s, t0_s,
                                  _levels(lo, hi), noise, step)
         return dataclasses.replace(seg, spike_samples=spikes, clipped_top_v=clip.top_v,
-                                   clipped_bottom_v=clip.bottom_v)
+                                   clipped_bottom_v=clip.bottom_v, noise_rms_v=noise,
+                                   adc_step_v=step)
     best: Segmentation | None = None
     first_error: Exception | None = None
-    for cand in _candidate_levels(*extremes):
+    for cand in _candidate_levels(*quantiles):
         if best is not None and _coverage(best, x.size, sample_interval_s) >= WELL_COVERED:
             break
         try:
@@ -209,11 +229,11 @@ def segment(v: np.ndarray, sample_interval_s: float, t0_s: float = 0.0,
     # only a run well beyond that is clipping
     ramp_samples = float(np.median(best.ramp_time_s)) / sample_interval_s
     per_sample = abs(best.levels.high_v - best.levels.low_v) / max(ramp_samples, 1.0)
-    final = find_clipping(x, (step / per_sample) if step and per_sample > 0 else 1.0)
+    final = find_clipping(x, (step / per_sample) if step and per_sample > 0 else 1.0, ends)
     if (final.top_v, final.bottom_v) != (clip.top_v, clip.bottom_v):
         best = _segment_signal(x, best.levels, sample_interval_s, t0_s, final, noise, step)
     return dataclasses.replace(best, spike_samples=spikes, clipped_top_v=final.top_v,
-                               clipped_bottom_v=final.bottom_v)
+                               clipped_bottom_v=final.bottom_v, noise_rms_v=noise, adc_step_v=step)
 
 
 def _levels(lo: float, hi: float) -> StateLevels:
@@ -242,11 +262,11 @@ def _check_not_flat(x: np.ndarray, lo: float, hi: float, noise: float) -> float 
     return found
 
 
-def _candidate_levels(extremes: tuple[float, float], tails: tuple[float, float]
+def _candidate_levels(outer: tuple[float, float], tails: tuple[float, float]
                       ) -> list[StateLevels]:
     """Levels to try first: the histogram's extremes, and its 5 % and 95 % points
     (``tails``) widened as for a uniform ramp (robust to a power-up or a flat stretch)."""
-    lo, hi = extremes
+    lo, hi = outer
     q5, q95 = tails
     w = (q95 - q5) / 0.9
     out = [_levels(lo, hi)]

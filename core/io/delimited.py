@@ -45,7 +45,7 @@ LONG_PREAMBLE_LINES = 5000
 HEAD_BYTES = 64 * 1024
 MAX_HEAD_BYTES = 1024 * 1024
 #: Bytes of data parsed per block; progress and cancel are checked between blocks.
-BLOCK_BYTES = 4 * 1024 * 1024
+BLOCK_BYTES = 16 * 1024 * 1024
 MIN_BLOCK_BYTES = 64 * 1024
 
 
@@ -153,28 +153,27 @@ def _arrow_reader(dialect: Dialect, threads: bool = False):
     def read(view: memoryview) -> list[np.ndarray]:
         table = pacsv.read_csv(pa.BufferReader(pa.py_buffer(view)), read_options=ro,
                                parse_options=po, convert_options=co)
-        out = [_floats(table.column(i)) for i in range(k)]
-        del table
-        return out
+        # the columns' chunks as views of Arrow's buffers (each view keeps its buffer
+        # alive); they are copied once, into the capture's arrays, when all are read
+        return [_float_chunks(table.column(i)) for i in range(k)]
 
     return read, (pa.ArrowException,)
 
 
-def _floats(column) -> np.ndarray:
-    """A float64 Arrow column as one numpy array, nulls as NaN.
+def _float_chunks(column) -> list[np.ndarray]:
+    """A float64 Arrow column as numpy arrays, one per chunk, nulls as NaN.
 
     Read from the chunks' buffers: pyarrow's own ``to_numpy`` imports pandas, which
     costs more than reading a small capture."""
-    out = np.empty(len(column))
-    at = 0
+    out = []
     for chunk in column.chunks:
         n = len(chunk)
         validity, data = chunk.buffers()[:2]
-        out[at:at + n] = np.frombuffer(data, dtype=np.float64, count=n, offset=chunk.offset * 8)
+        values = np.frombuffer(data, dtype=np.float64, count=n, offset=chunk.offset * 8)
         if chunk.null_count:
             bits = np.unpackbits(np.frombuffer(validity, dtype=np.uint8), bitorder="little")
-            out[at:at + n][bits[chunk.offset:chunk.offset + n] == 0] = np.nan
-        at += n
+            values = np.where(bits[chunk.offset:chunk.offset + n] == 0, np.nan, values)
+        out.append(values)
     return out
 
 
@@ -379,23 +378,20 @@ def _read_data(mm: mmap.mmap, size: int, sniff: Sniff, path: str,
                     got = None
             if got is None:
                 got = _parse_lines(blk, a, b, cancel)
+            got = [c if isinstance(c, list) else [c] for c in got]  # each column as pieces
             blk.first_rows.append(rows)
-            rows += got[0].shape[0] if got else 0
+            rows += sum(piece.shape[0] for piece in got[0]) if got else 0
             parts.append(got)
             progress(0.02 + 0.93 * (b - blk.start) / total)
     finally:
         view.release()
-    if not parts:
-        columns = [np.empty(0) for _ in range(dia.fields)]
-    elif len(parts) == 1:
-        # Arrow's zero-copy views are read-only; the capture owns writable arrays.
-        columns = [c if c.flags.writeable else c.copy() for c in parts[0]]
-    else:
-        columns = []
-        for j in range(dia.fields):
-            columns.append(np.concatenate([p[j] for p in parts]))
-            for p in parts:
-                p[j] = None  # type: ignore[call-overload]  # free block memory as we go
+    # one copy of every piece into the capture's own (writable) arrays
+    columns = []
+    for j in range(dia.fields):
+        pieces = [piece for p in parts for piece in p[j]]
+        columns.append(np.concatenate(pieces) if pieces else np.empty(0))
+        for p in parts:
+            p[j] = []  # free block memory as we go
     if rows == 0:
         what = f" a header on line {sniff.header_line} but" if sniff.header_line else ""
         raise EmptyCaptureError(f"found{what} no rows of numbers to read", path)
