@@ -153,9 +153,11 @@ def _arrow_reader(dialect: Dialect, threads: bool = False):
     def read(view: memoryview) -> list[np.ndarray]:
         table = pacsv.read_csv(pa.BufferReader(pa.py_buffer(view)), read_options=ro,
                                parse_options=po, convert_options=co)
-        # the columns' chunks as views of Arrow's buffers (each view keeps its buffer
-        # alive); they are copied once, into the capture's arrays, when all are read
-        return [_float_chunks(table.column(i)) for i in range(k)]
+        # each column copied out of Arrow's buffers at once, so the table is freed block by
+        # block (views would keep every block's buffers alive until the end)
+        out = [_float_chunks(table.column(i)) for i in range(k)]
+        del table
+        return [c[0] if len(c) == 1 else np.concatenate(c) for c in out]
 
     return read, (pa.ArrowException,)
 
@@ -378,7 +380,7 @@ def _read_data(mm: mmap.mmap, size: int, sniff: Sniff, path: str,
                     got = None
             if got is None:
                 got = _parse_lines(blk, a, b, cancel)
-            got = [c if isinstance(c, list) else [c] for c in got]  # each column as pieces
+            got = [[c] for c in got]  # each column as pieces
             blk.first_rows.append(rows)
             rows += sum(piece.shape[0] for piece in got[0]) if got else 0
             parts.append(got)
