@@ -112,7 +112,7 @@ def run_explain(req: ExplainRequest, progress: ProgressFn, cancel: CancelFn) -> 
 
     progress(0.0)
     stop_if_cancelled(cancel, "explaining")
-    e = explain(list(req.analyses), list(req.contexts))
+    e = explain(list(req.analyses), list(req.contexts), progress, cancel)
     stop_if_cancelled(cancel, "explaining")
     progress(0.9)
     best = e.model(e.best_model)

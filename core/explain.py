@@ -44,6 +44,7 @@ from typing import Sequence
 import numpy as np
 
 from . import relaxation as rx
+from .capture import CancelFn, ProgressFn, stop_if_cancelled
 from .circuit import CircuitContext
 from .diagnose import BIC_MARGIN, window_data
 from .errors import AnalysisError
@@ -319,8 +320,11 @@ def _worth_a_second_branch(results: list[ModelResult]) -> bool:
     return one is not None and (not others or one.bic <= min(others) + SECOND_BRANCH_BIC)
 
 
-def fit_set(members: Sequence[Member]) -> tuple[list[ModelResult], bool]:
-    """Every model fitted to the set, best first, and whether the shunt shares ``R``."""
+def fit_set(members: Sequence[Member], progress: ProgressFn | None = None,
+            cancel: CancelFn | None = None) -> tuple[list[ModelResult], bool]:
+    """Every model fitted to the set, best first, and whether the shunt shares ``R``;
+    ``progress(fraction)`` after each model, ``cancel()`` polled before each (raising
+    :class:`~trueslope.core.errors.Cancelled`)."""
     by_resistance = all(m.capacitance_f is not None for m in members)
     n = int(sum(m.time_s.size for m in members))
     if members[0].band_s == (0.0, 0.0):
@@ -329,7 +333,10 @@ def fit_set(members: Sequence[Member]) -> tuple[list[ModelResult], bool]:
     band = members[0].band_s
     results: list[ModelResult] = []
     seed = None
-    for model in MODEL_CAUSE:
+    for i, model in enumerate(MODEL_CAUSE):
+        stop_if_cancelled(cancel, "explaining")
+        if progress is not None:
+            progress(0.9 * i / len(MODEL_CAUSE))
         if model == "relaxation-2" and not _worth_a_second_branch(results):
             continue
         theta, fit = _fit_model(model, members, by_resistance, seed)
@@ -374,7 +381,9 @@ def _unexplained(best: ModelResult, members: Sequence[Member], by_resistance: bo
 
 
 def explain(analyses: Sequence[Analysis],
-            contexts: Sequence[CircuitContext | None] | None = None) -> Explanation:
+            contexts: Sequence[CircuitContext | None] | None = None,
+            progress: ProgressFn | None = None, cancel: CancelFn | None = None
+            ) -> Explanation:
     """Which cause explains every capture of a set, with its shared parameters.
 
     Parameters
@@ -385,6 +394,9 @@ def explain(analyses: Sequence[Analysis],
         What is known of each capture's circuit: the capacitance lets the shunt
         share its resistance (give it for every capture or for none), the comparator
         levels tell absorption from a probe's compensation.
+    progress, cancel : callable, optional
+        ``progress(fraction)`` as the models are fitted; ``cancel()`` polled between
+        them, True stops with :class:`~trueslope.core.errors.Cancelled`.
 
     Returns
     -------
@@ -415,7 +427,7 @@ def explain(analyses: Sequence[Analysis],
         raise AnalysisError("give the capacitance for every capture or for none: the shunt's "
                             "resistance is shared only when every capacitance is known")
     with np.errstate(all="ignore"):
-        results, by_resistance = fit_set(members)
+        results, by_resistance = fit_set(members, progress, cancel)
     best = results[0]
     cause_of = {r.model: MODEL_CAUSE[r.model] for r in results}
     rival = next((r for r in results[1:] if cause_of[r.model] != cause_of[best.model]), None)

@@ -121,8 +121,8 @@ def _next_line(e) -> str | None:
 CHECK_WORDS = {
     "probe-calibrator": ("Check the probe on the scope's calibrator square wave: a flat top "
                          "means the probe is compensated and the relaxation is the "
-                         "capacitor's absorption; or give the comparator's levels "
-                         "(--thresholds LOW,HIGH) to let the start level decide."),
+                         "capacitor's absorption; or state the comparator's levels (its low "
+                         "and high thresholds) to let the start level decide."),
 }
 
 

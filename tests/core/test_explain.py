@@ -254,3 +254,13 @@ def test_the_standard_figure_extrapolated_from_ramps_matches_ngspice_running_it(
     after = t > STANDARD_CHARGE_S + STANDARD_SHORT_S
     simulated_pct = 100.0 * float(np.max(v[after]))
     assert e.absorption.standard_recovery_pct == pytest.approx(simulated_pct, rel=0.20)
+
+
+def test_progress_is_reported_and_cancel_stops(measured):
+    from trueslope.core.errors import Cancelled
+    a = measured(S.shunt(2.2e6, 100e-6), 0)
+    seen: list[float] = []
+    explain([a], progress=seen.append)
+    assert seen and seen == sorted(seen) and 0.0 <= seen[0] and seen[-1] <= 1.0
+    with pytest.raises(Cancelled):
+        explain([a], cancel=lambda: True)
