@@ -14,6 +14,8 @@ model                       shared across the set            free in each captur
 ``relaxation-2``            two branches                     start level, slope
 ``relaxation-spread``       branches spread evenly per       start level, slope
                             decade (their density)
+``shunt-and-spread``        the shunt's and the spread's     start level, slope
+                            (both at once, to first order)
 ==========================  ===============================  =========================
 
 The shapes and their physics are in :mod:`relaxation`. Every capture's averaged cycle
@@ -26,10 +28,10 @@ of the set; the covariance of the shared parameters is ``(J^T J)^-1`` of the pro
 residuals, widened by ``chi2 / dof`` where that exceeds 1, and the 95 % intervals are
 ``1.96`` standard errors (on the logarithm of a positive parameter).
 
-A relaxation is absorption when the slope starts high and the trace starts on the
-comparator's reset level, a probe's compensation when it starts low or off that level
-(:func:`relaxation.probe_start_offset`); without the levels the two cannot be told
-apart, and the result names the check. When the best two causes are within
+A relaxation is absorption when the slope starts high and the ramp ends on the
+comparator's trip level, a probe's compensation when it starts low or ends off that level
+(``explain_levels``); without the levels the two cannot be told apart, and the result
+names the check. When the best two causes are within
 ``diagnose.BIC_MARGIN`` the set has not decided, and :mod:`explain_next` says which
 capture to take next. Numbers and codes only; ``report.explain_text`` words them.
 """
@@ -59,7 +61,7 @@ from .results import Analysis
 MODEL_CAUSE = {"line": "linear", "shunt-loading": "shunt-loading",
                "voltage-coefficient": "voltage-coefficient",
                "relaxation-spread": "relaxation", "relaxation-1": "relaxation",
-               "relaxation-2": "relaxation"}
+               "relaxation-2": "relaxation", "shunt-and-spread": "absorption-and-shunt"}
 #: Largest absorption amplitude ``A = k / (1 - k)`` tried (k = 50 %).
 MAX_AMPLITUDE = 1.0
 #: How near the best other model one absorption branch must come for a second to be tried.
@@ -82,7 +84,7 @@ class Member:
     floor_pct: float
     window: tuple[float, float]
     capacitance_f: float | None
-    reset_level_v: float | None
+    trip_level_v: float | None
     band_s: tuple[float, float] = (0.0, 0.0)
 
 
@@ -120,7 +122,8 @@ class Explanation(ToDict):
     captures : tuple of str
     cause : str
         ``"linear"``, ``"shunt-loading"``, ``"voltage-coefficient"``,
-        ``"dielectric-absorption"``, ``"probe-compensation"``,
+        ``"dielectric-absorption"``, ``"absorption-and-shunt"`` (both at once),
+        ``"probe-compensation"``,
         ``"absorption-or-probe"`` (the levels needed to tell them are not given)
         or ``"undecided"`` (two causes within the margin).
     best_model, runner_up : str, str or None
@@ -172,9 +175,9 @@ def member_of(analysis: Analysis, context: CircuitContext | None = None) -> Memb
         return None
     fig = analysis.figures
     mirrored = bool(analysis.averaged.mirrored)
-    reset = None
+    trip = None  # the level the ramp ends at, measurement frame
     if context is not None and context.low_threshold_v is not None:
-        reset = -context.high_threshold_v if mirrored else context.low_threshold_v
+        trip = -context.low_threshold_v if mirrored else context.high_threshold_v
     retrace = fig.retrace_time_s if math.isfinite(fig.retrace_time_s) else 0.0
     cap = None if context is None else context.effective_capacitance_f
     return Member(name=analysis.source, time_s=data.time_s, voltage_v=data.voltage_v,
@@ -185,7 +188,7 @@ def member_of(analysis: Analysis, context: CircuitContext | None = None) -> Memb
                   floor_pct=data.floor_pct,
                   window=(fig.window_start_s / data.ramp_time_s,
                           fig.window_end_s / data.ramp_time_s),
-                  capacitance_f=cap, reset_level_v=reset)
+                  capacitance_f=cap, trip_level_v=trip)
 
 
 # ------------------------------------------------------------------ the shapes
@@ -199,6 +202,10 @@ def _shape(model: str, theta: np.ndarray, m: Member, slope: float,
         return rx.shunt_shape(t, tau)
     if model == "voltage-coefficient":
         return rx.voltage_shape(t, float(theta[0]), slope)
+    if model == "shunt-and-spread":
+        tau = math.exp(theta[0]) * (m.capacitance_f if by_resistance else 1.0)
+        return rx.shunt_shape(t, tau) - rx.relaxation_terms(
+            t, rx.branches_of(model, theta, m.band_s), m.ramp_time_s, m.retrace_time_s)
     return rx.relaxation_shape(t, rx.branches_of(model, theta, m.band_s), m.ramp_time_s,
                                m.retrace_time_s)
 
@@ -274,12 +281,15 @@ def _fit_model(model: str, members: Sequence[Member], by_resistance: bool,
     t_hi = max(m.ramp_time_s for m in members)
     if model == "line":
         return np.zeros(0), fit
+    scale = 1.0 / float(np.median([m.capacitance_f for m in members])) if by_resistance else 1.0
+    lo_sh, hi_sh = math.log(0.02 * t_lo * scale), math.log(1e5 * t_hi * scale)
     if model == "shunt-loading":
-        scale = 1.0
-        if by_resistance:
-            scale = 1.0 / float(np.median([m.capacitance_f for m in members]))
-        lo, hi = np.log([0.02 * t_lo * scale]), np.log([1e5 * t_hi * scale])
+        lo, hi = np.array([lo_sh]), np.array([hi_sh])
         start = _grid_start(fit, [np.linspace(lo[0], hi[0], 48)])
+        return _refine(fit, start, lo, hi), fit
+    if model == "shunt-and-spread":
+        lo, hi = np.array([lo_sh, math.log(1e-6)]), np.array([hi_sh, math.log(0.2)])
+        start = _grid_start(fit, [np.linspace(lo[0], hi[0], 20), np.linspace(lo[1], hi[1], 16)])
         return _refine(fit, start, lo, hi), fit
     if model == "voltage-coefficient":
         reach = max(m.slope_v_per_s * m.time_s[-1] for m in members)
@@ -361,6 +371,17 @@ def fit_set(members: Sequence[Member], progress: ProgressFn | None = None,
     return [dataclasses.replace(r, delta_bic=r.bic - top) for r in results], by_resistance
 
 
+def _ends(best: ModelResult, members: Sequence[Member], by_resistance: bool) -> list[float]:
+    """Each capture's fitted curve at its ramp's end (the model extrapolated past the
+    window's last bin)."""
+    out = []
+    for m, (a, b) in zip(members, best.coef):
+        at_end = dataclasses.replace(m, time_s=np.array([m.ramp_time_s]))
+        g = _shape(best.model, np.asarray(best.theta), at_end, b, by_resistance)
+        out.append(float(a + b * g[0]) if g is not None else math.nan)
+    return out
+
+
 def _unexplained(best: ModelResult, members: Sequence[Member], by_resistance: bool
                  ) -> tuple[str, ...]:
     """The captures the set's model leaves a shape in: on its own, the capture's catch-all
@@ -434,9 +455,11 @@ def explain(analyses: Sequence[Analysis],
     evidence = rival.bic - best.bic if rival is not None else math.inf
     check, level = None, None
     cause = cause_of[best.model]
-    if cause == "relaxation":
-        level = level_check(best, members)
+    if cause in ("relaxation", "absorption-and-shunt"):
+        level = level_check(best, members, _ends(best, members, by_resistance))
         cause, check = relaxation_cause(best, level)
+        if best.model == "shunt-and-spread" and cause == "dielectric-absorption":
+            cause = "absorption-and-shunt"
     decided = evidence > BIC_MARGIN
     explanation = Explanation(
         captures=tuple(m.name for m in members), cause=cause if decided else "undecided",

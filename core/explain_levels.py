@@ -2,9 +2,10 @@
 
 A Dow branch and a probe's tail give the same shape at every rate
 (``relaxation``); absorption leaves the trace on the comparator's levels, a probe's
-tail moves the displayed start off the reset level by ``A s tau (1 + D)``
-(``relaxation.probe_start_offset``). With the levels stated, the fitted start levels
-decide; a slope starting low is never absorption. SOURCES.md [probe-comp], [absorption].
+tail moves the displayed ramp's end off the trip level by ``A s tau (1 + D e^(-T/tau))``
+(``relaxation.probe_end_offset``; the end, because the fast reset overshoots its level
+by the comparator's delay and the slow ramp hardly does). With the levels stated, the
+fitted ends decide; a slope starting low is never absorption. SOURCES.md [probe-comp], [absorption].
 """
 
 from __future__ import annotations
@@ -29,7 +30,7 @@ LEVEL_TOLERANCE_FRAC = 0.001
 class LevelCheck(ToDict):
     """Absorption or a probe's compensation, told by where the trace starts.
 
-    ``measured_offset_v``: the fitted start level minus the stated reset level
+    ``measured_offset_v``: the fitted ramp's end minus the stated trip level
     (measurement frame, the set's weighted mean); ``probe_offset_v``: what a probe
     tail with the fitted branches would give there (absorption gives 0);
     ``uncertainty_v``; ``verdict`` ``"absorption"``, ``"probe"`` or ``"unclear"``.
@@ -41,18 +42,19 @@ class LevelCheck(ToDict):
     verdict: str
 
 
-def level_check(best, members: Sequence) -> LevelCheck | None:
+def level_check(best, members: Sequence, ends_v: Sequence[float]) -> LevelCheck | None:
     """Where the fitted curves of ``best`` (an ``explain.ModelResult`` of a relaxation)
-    start against the stated reset levels of ``members`` (``explain.Member``); None when
-    no capture states its levels."""
-    rows = [(m, c) for m, c in zip(members, best.coef) if m.reset_level_v is not None]
+    end (``ends_v``, each capture's model at its ramp time) against the stated trip levels
+    of ``members`` (``explain.Member``); None when no capture states its levels."""
+    rows = [(m, c, e) for m, c, e in zip(members, best.coef, ends_v)
+            if m.trip_level_v is not None]
     if not rows:
         return None
     branches = rx.branches_of(best.model, best.theta, best.band_s)
     meas, pred, unc = [], [], []
-    for m, (a, s) in rows:
-        meas.append(a - m.reset_level_v)
-        pred.append(rx.probe_start_offset(branches, s, m.ramp_time_s, m.retrace_time_s))
+    for m, (_, s), end in rows:
+        meas.append(end - m.trip_level_v)
+        pred.append(rx.probe_end_offset(branches, s, m.ramp_time_s, m.retrace_time_s))
         unc.append(LEVEL_TOLERANCE_FRAC * m.swing_v + m.floor_pct * m.span_v / 100.0)
     w = 1.0 / np.square(unc)
     measured = float(np.sum(w * meas) / np.sum(w))

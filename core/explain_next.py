@@ -34,7 +34,7 @@ from .circuit import PREDICTION_POINTS as POINTS
 from .jsonable import ToDict
 
 #: The causes whose branches are read as absorption (the probe cannot be ruled out in the second).
-ABSORBING = ("dielectric-absorption", "absorption-or-probe")
+ABSORBING = ("dielectric-absorption", "absorption-and-shunt", "absorption-or-probe")
 #: Draws of the branches behind the absorption figures' range.
 SPREAD_SAMPLES = 100
 #: The captures considered: (what changes, by which factor).
@@ -101,9 +101,17 @@ def predicted_pct(model: str, theta: Sequence[float], member, change: str, facto
         t = np.linspace(w0 * T, w1 * T, POINTS)
         g = rx.voltage_shape(t, beta, s)
         return None if g is None or not T > 0 else _nonlinearity(t, s * g)
+    branches = rx.branches_of(model, theta, band_s)
+    if model == "shunt-and-spread":
+        tau = math.exp(theta[0]) * (member.capacitance_f if by_resistance else 1.0) * c_scale
+        if swing >= s * tau:
+            return None
+        T = -tau * math.log1p(-swing / (s * tau))
+        t = np.linspace(w0 * T, w1 * T, POINTS)
+        return _nonlinearity(t, s * (rx.shunt_shape(t, tau)
+                                     - rx.relaxation_terms(t, branches, T, tr)))
     T = swing / s
     t = np.linspace(w0 * T, w1 * T, POINTS)
-    branches = rx.branches_of(model, theta, band_s)
     return _nonlinearity(t, s * rx.relaxation_shape(t, branches, T, tr))
 
 

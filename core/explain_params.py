@@ -71,6 +71,10 @@ def parameters(model: str, theta: np.ndarray, cov: np.ndarray,
         return (signed("voltage_coefficient_per_v", 0, "1/V", -1.0),)
     if model == "relaxation-spread":
         return (positive("absorption_per_decade", 0, ""),)
+    if model == "shunt-and-spread":
+        return (positive("shunt_ohm" if by_resistance else "tau_s", 0,
+                         "Ω" if by_resistance else "s"),
+                positive("absorption_per_decade", 1, ""))
     out: list[Parameter] = []
     for j in range(0, theta.size, 2):
         n = j // 2 + 1

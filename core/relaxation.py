@@ -37,8 +37,8 @@ together.
 A probe whose compensation is off (SOURCES.md [probe-comp]) shows the node through ``1 + kappa`` at high
 frequency and ``1`` at DC, settling with its own time constant: the displayed
 trace is ``v - kappa' e(t)``, the same lag, so the same ``g`` with ``A = -kappa'``
-and an offset at the ramp's start (:func:`probe_start_offset`). Only levels tell
-the two apart: absorption never moves the trace off the comparator's levels.
+and an offset from the node (:func:`probe_end_offset`). Only levels tell the two
+apart: absorption never moves the trace off the comparator's levels.
 """
 
 from __future__ import annotations
@@ -47,8 +47,8 @@ import math
 
 import numpy as np
 
-__all__ = ["branches_of", "lag_factor", "relaxation_shape", "shunt_shape",
-           "probe_start_offset", "spread_band", "spread_branches", "voltage_shape"]
+__all__ = ["branches_of", "lag_factor", "relaxation_shape", "relaxation_terms", "shunt_shape",
+           "probe_end_offset", "spread_band", "spread_branches", "voltage_shape"]
 
 #: Branches a decade of an even spread (the density is what the set measures).
 SPREAD_PER_DECADE = 4
@@ -90,29 +90,42 @@ def lag_factor(tau_s: float, ramp_time_s: float, retrace_time_s: float) -> float
     return (q * a - rb) / (a + b - a * b) - 1.0
 
 
+def relaxation_terms(t: np.ndarray, branches: list[tuple[float, float]],
+                     ramp_time_s: float, retrace_time_s: float) -> np.ndarray:
+    """``sum A_i tau_i D_i (1 - exp(-t / tau_i))``, seconds: what the branches take from a
+    ramp's time course (``t`` minus this is :func:`relaxation_shape`)."""
+    out = np.zeros_like(np.asarray(t, dtype=float))
+    for amp, tau in branches:
+        out += amp * tau * lag_factor(tau, ramp_time_s, retrace_time_s) * -np.expm1(-t / tau)
+    return out
+
+
 def relaxation_shape(t: np.ndarray, branches: list[tuple[float, float]],
                      ramp_time_s: float, retrace_time_s: float) -> np.ndarray:
     """``t - sum A_i tau_i D_i (1 - exp(-t / tau_i))``, seconds.
 
     ``branches`` are ``(A_i, tau_i)``: ``A = k / (1 - k)`` for absorption (positive),
-    minus the tail's fraction for a probe's compensation.
+    minus the tail's fraction for a probe's compensation. With a shunt as well, the two
+    add to first order: ``shunt_shape - relaxation_terms``.
     """
-    g = np.array(t, dtype=float, copy=True)
-    for amp, tau in branches:
-        g -= amp * tau * lag_factor(tau, ramp_time_s, retrace_time_s) * -np.expm1(-t / tau)
-    return g
+    return np.asarray(t, dtype=float) - relaxation_terms(t, branches, ramp_time_s,
+                                                         retrace_time_s)
 
 
-def probe_start_offset(branches: list[tuple[float, float]], slope_v_per_s: float,
-                       ramp_time_s: float, retrace_time_s: float) -> float:
-    """Where a probe's tail puts the trace at the ramp's start, against the node, volts.
+def probe_end_offset(branches: list[tuple[float, float]], slope_v_per_s: float,
+                     ramp_time_s: float, retrace_time_s: float) -> float:
+    """Where a probe's tail puts the trace at the ramp's end, against the node, volts.
 
-    The displayed trace is ``v - kappa e``; with ``A = -kappa`` its value at ``t = 0``
-    is off the node's (the comparator's reset level) by ``A e_0 = A s tau (1 + D)``
-    summed over the tails. Absorption gives 0 there.
+    The displayed trace is ``v - kappa e``; with ``A = -kappa`` it is off the node (the
+    comparator's trip level) at ``t = T`` by ``A e_T``, the lag there being
+    ``e_T = s tau (1 + D exp(-T / tau))``, summed over the tails. Absorption gives 0 there.
+    The end is the better place to look: the ramp overshoots its trip level only by the
+    comparator's delay times the ramp's slope, where the fast reset overshoots its level by
+    the delay times the reset's far steeper slew.
     """
-    return float(sum(amp * slope_v_per_s * tau * (1.0 + lag_factor(tau, ramp_time_s,
-                                                                   retrace_time_s))
+    T, tr = float(ramp_time_s), float(retrace_time_s)
+    return float(sum(amp * slope_v_per_s * tau
+                     * (1.0 + lag_factor(tau, T, tr) * math.exp(-T / tau))
                      for amp, tau in branches))
 
 
@@ -137,7 +150,10 @@ def spread_branches(per_decade: float, band_s: tuple[float, float]) -> list[tupl
 
 def branches_of(model: str, theta, band_s: tuple[float, float]) -> list[tuple[float, float]]:
     """The ``(A, tau)`` branches a relaxation model's shared parameters stand for:
-    ``(A, ln tau)`` pairs, or the log of the density per decade of an even spread."""
+    ``(A, ln tau)`` pairs, or the log of the density per decade of an even spread (after
+    the shunt's parameter in ``shunt-and-spread``)."""
     if model == "relaxation-spread":
         return spread_branches(math.exp(float(theta[0])), band_s)
+    if model == "shunt-and-spread":
+        return spread_branches(math.exp(float(theta[1])), band_s)
     return [(float(theta[i]), math.exp(float(theta[i + 1]))) for i in range(0, len(theta), 2)]

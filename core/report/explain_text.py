@@ -24,6 +24,7 @@ CAUSE_WORDS = {
     "shunt-loading": "shunt loading (a resistance across the capacitor)",
     "voltage-coefficient": "a capacitance that changes with voltage",
     "dielectric-absorption": "dielectric absorption",
+    "absorption-and-shunt": "dielectric absorption and a resistance across the capacitor",
     "probe-compensation": "the probe's compensation (its step response is not flat)",
     "absorption-or-probe": "dielectric absorption or a mis-compensated probe "
                            "(the same shape at every rate)",
@@ -34,7 +35,9 @@ MODEL_WORDS = {"line": "straight line", "shunt-loading": "shunt loading",
                "voltage-coefficient": "voltage coefficient",
                "relaxation-1": "one relaxation branch (absorption or probe)",
                "relaxation-2": "two relaxation branches (absorption or probe)",
-               "relaxation-spread": "relaxation spread evenly over the time constants"}
+               "relaxation-spread": "relaxation spread evenly over the time constants",
+               "shunt-and-spread": "shunt loading with a relaxation spread evenly over the "
+                                   "time constants"}
 #: A shared parameter's label.
 PARAMETER_WORDS = {"shunt_ohm": "resistance across the capacitor",
                    "tau_s": "time constant R C", "voltage_coefficient_per_v":
@@ -42,7 +45,7 @@ PARAMETER_WORDS = {"shunt_ohm": "resistance across the capacitor",
                    "tau": "branch time constant",
                    "absorption_per_decade": "absorption per decade of time constant"}
 #: Causes whose branches are read as absorption.
-ABSORBING = ("dielectric-absorption", "absorption-or-probe")
+ABSORBING = ("dielectric-absorption", "absorption-and-shunt", "absorption-or-probe")
 #: What to change for the next capture.
 CHANGE_WORDS = {"current": "the charging current", "capacitance": "the timing capacitance "
                 "(same current)", "swing": "the swing (upper comparator level)"}
@@ -94,10 +97,10 @@ def _levels_line(e) -> str | None:
     lc = e.level_check
     if lc is None:
         return None
-    told = {"absorption": "absorption keeps it on the reset level",
-            "probe": "a probe's tail moves it off the reset level",
+    told = {"absorption": "absorption keeps it on the trip level",
+            "probe": "a probe's tail moves it off the trip level",
             "unclear": "too small a difference to tell the two apart"}[lc.verdict]
-    return (f"Start level against the stated reset level: {si(lc.measured_offset_v, 'V', 3)} "
+    return (f"End of the ramp against the stated trip level: {si(lc.measured_offset_v, 'V', 3)} "
             f"(a probe's tail would put it at {si(lc.probe_offset_v, 'V', 3)}, absorption at "
             f"0 V; uncertainty {si(lc.uncertainty_v, 'V', 2)}): {told}.")
 
@@ -122,7 +125,7 @@ CHECK_WORDS = {
     "probe-calibrator": ("Check the probe on the scope's calibrator square wave: a flat top "
                          "means the probe is compensated and the relaxation is the "
                          "capacitor's absorption; or state the comparator's levels (its low "
-                         "and high thresholds) to let the start level decide."),
+                         "and high thresholds) to let the ramp's end decide."),
 }
 
 
