@@ -55,31 +55,14 @@ def window_argext(x: np.ndarray, starts: np.ndarray, width: int, kind: str) -> n
 
 
 def _local_lines(xm: np.ndarray, first: np.ndarray, m: int) -> tuple[np.ndarray, np.ndarray]:
-    """Least-squares line ``a + b k`` through the ``m`` samples from each ``first`` (indices
-    clipped to the record, so a window at its ends repeats the end sample)."""
-    first = np.asarray(first, dtype=np.int64)
-    inside = (first >= 0) & (first + m <= xm.size)
-    a = np.empty(first.shape)
-    b = np.empty(first.shape)
-    if np.any(inside):
-        # whole windows: the rows of a strided view, and the index sums in closed form
-        f = first[inside]
-        y = np.lib.stride_tricks.sliding_window_view(xm, m)[f]
-        centred = np.arange(m, dtype=float) - 0.5 * (m - 1)
-        sxx = m * (m * m - 1) / 12.0
-        b[inside] = (y @ centred) / (sxx if sxx > 0 else 1.0)
-        a[inside] = y.mean(axis=1) - b[inside] * (f + 0.5 * (m - 1))
-    if not np.all(inside):
-        f = first[~inside]
-        idx = np.clip(f[:, None] + np.arange(m)[None, :], 0, xm.size - 1)
-        k = idx.astype(float)
-        y = xm[idx]
-        kb, yb = k.mean(axis=1), y.mean(axis=1)
-        sxx_k = ((k - kb[:, None]) ** 2).sum(axis=1)
-        b[~inside] = ((k - kb[:, None]) * (y - yb[:, None])).sum(axis=1) / np.where(
-            sxx_k > 0, sxx_k, 1.0)
-        a[~inside] = yb - b[~inside] * kb
-    return a, b
+    """Least-squares line ``a + b k`` through the ``m`` samples from each ``first``."""
+    idx = np.clip(first[:, None] + np.arange(m)[None, :], 0, xm.size - 1)
+    k = idx.astype(float)
+    y = xm[idx]
+    kb, yb = k.mean(axis=1), y.mean(axis=1)
+    sxx = ((k - kb[:, None]) ** 2).sum(axis=1)
+    b = ((k - kb[:, None]) * (y - yb[:, None])).sum(axis=1) / np.where(sxx > 0, sxx, 1.0)
+    return yb - b * kb, b
 
 
 def _line_samples(period_samples: float) -> int:
