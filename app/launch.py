@@ -71,6 +71,8 @@ def make_app(argv: list[str] | None = None):
     app.setOrganizationName(ORGANISATION)
     app.setApplicationName(APPLICATION)
     app.setApplicationDisplayName("trueslope")
+    from .icon import set_app_icon
+    set_app_icon(app)
     # Antialiasing millions of points costs far more than it shows; the
     # short fit and residual curves look fine without it too.
     pg.setConfigOptions(antialias=False, useOpenGL=False)
