@@ -10,6 +10,8 @@ slicing, iteration and comparison build records on demand.
 
 from __future__ import annotations
 
+import gc
+import time
 from collections.abc import Sequence
 from dataclasses import dataclass, fields
 from typing import Iterator, overload
@@ -18,6 +20,8 @@ import numpy as np
 
 from .results import CycleFigures
 
+#: Records built between two offers of the interpreter's lock to other threads.
+RECORD_SLICE = 2000
 #: The record's fields in order; ``slope_ci95_v_per_s`` is stored as two columns.
 _FIELDS = tuple(f.name for f in fields(CycleFigures))
 
@@ -74,10 +78,27 @@ class CycleList(Sequence):
 
     def records(self) -> tuple[CycleFigures, ...]:
         """Every record, built once and kept (a worker thread builds them so that the
-        window's thread, iterating afterwards, only reads them)."""
+        window's thread, iterating afterwards, only reads them).
+
+        Built in slices with the garbage collector paused: its passes over the hundreds of
+        thousands of new objects, and long slices, would hold the interpreter's lock from
+        a window's thread for a tenth of a second and more; between slices the lock is
+        offered to other threads."""
         built = self.__dict__.get("_built")
         if built is None:
-            built = tuple(self._records(range(len(self))))
+            parts: list[CycleFigures] = []
+            collecting = gc.isenabled()
+            try:
+                for a in range(0, len(self), RECORD_SLICE):
+                    gc.disable()
+                    parts.extend(self._records(range(a, min(a + RECORD_SLICE, len(self)))))
+                    if collecting:
+                        gc.enable()
+                    time.sleep(0)  # let another thread run
+            finally:
+                if collecting:
+                    gc.enable()
+            built = tuple(parts)
             object.__setattr__(self, "_built", built)  # a cache, not a field: still frozen
         return built
 
