@@ -90,6 +90,8 @@ class RampCircuit:
     branches: tuple[Branch, ...] = ()
     probe_resistance_ohm: float = 10e6
     probe_capacitance_f: float = 12e-12
+    #: The current source's soft start at power-up: ``I (1 - exp(-t / soft_start_s))``.
+    soft_start_s: float = 0.0
 
     @property
     def shunt_resistance_ohm(self) -> float:
@@ -111,10 +113,13 @@ class RampCircuit:
         g_b = np.array([1 / b.resistance_ohm for b in self.branches])
         c_b = np.array([b.capacitance_f for b in self.branches])
 
+        soft = self.soft_start_s
+
         def f(_t: float, y: np.ndarray) -> np.ndarray:
             v, vb = y[0], y[1:]
             ib = g_b * (v - vb)
-            i = i0 - g_sh * v - ib.sum() + g_sw * (v_sw - v)
+            drive = i0 * -np.expm1(-_t / soft) if soft > 0 else i0
+            i = drive - g_sh * v - ib.sum() + g_sw * (v_sw - v)
             out = np.empty_like(y)
             out[0] = i / (c0 * (1 - beta * v) + cp)
             out[1:] = ib / c_b
@@ -156,7 +161,8 @@ class Phase:
     sol: object  # scipy OdeSolution
 
 
-def simulate(c: RampCircuit, t_end_s: float, rng: np.random.Generator) -> list[Phase]:
+def simulate(c: RampCircuit, t_end_s: float, rng: np.random.Generator,
+             y0: np.ndarray | None = None) -> list[Phase]:
     """Integrate the generator from a cold-ish start until ``t_end_s``.
 
     The absorption branches start at mid-swing so the warm-up is short; each
@@ -165,7 +171,8 @@ def simulate(c: RampCircuit, t_end_s: float, rng: np.random.Generator) -> list[P
     """
     lo, hi = c.lower_threshold_v, c.upper_threshold_v
     start = lo if c.direction == "rising" else hi
-    y = np.array([start] + [0.5 * (lo + hi)] * len(c.branches), dtype=float)
+    y = (np.array([start] + [0.5 * (lo + hi)] * len(c.branches), dtype=float) if y0 is None
+         else np.asarray(y0, dtype=float))
     t, closed, phases = 0.0, False, []
     f_open, f_closed = c.rhs(False), c.rhs(True)
     while t < t_end_s:
@@ -430,6 +437,12 @@ CAPTURES = {
     "x7r_cap_ramp.csv": x7r_capture,
     "electrolytic_ramp.txt": electrolytic_capture,
 }
+
+
+def all_captures() -> dict:
+    """The three captures above and the rest of the demo set (``demo_set``)."""
+    import demo_set
+    return {**CAPTURES, **demo_set.CAPTURES}
 CIRCUITS = {"film_cap_ramp.csv": (FILM, 1e-3), "x7r_cap_ramp.csv": (X7R, 20e-3),
             "electrolytic_ramp.txt": (ELECTROLYTIC, 1.0)}
 
@@ -459,7 +472,7 @@ def main(argv: list[str] | None = None) -> int:
             print(describe(name))
         return 0
     status = 0
-    for name, make in CAPTURES.items():
+    for name, make in all_captures().items():
         text = make()
         data = text.encode("ascii")
         path = args.out / name
@@ -470,6 +483,10 @@ def main(argv: list[str] | None = None) -> int:
         else:
             path.write_bytes(data)
             print(f"{name}: {len(data) / 1e6:.2f} MB, {text.count(chr(10))} lines")
+    if not args.check:
+        import demo_set
+        for name in demo_set.write_extras(args.out):
+            print(f"{name}: written")
     return status
 
 
