@@ -93,6 +93,8 @@ class CommandsMixin:
         self.act_reset_window = self._action("&Reset window to trim", self.reset_window, (),
                                              "Forget the dragged window; trim each ramp end instead")
         self.act_cancel = self._action("Cancel", self.cancel, "Esc", "Stop the running load or analysis")
+        self.act_guide = self._action("&User guide", self.show_guide, "F1",
+                                      "The guide: a tour, the definitions, the commands")
         self.act_safety = self._action("Bench &safety", self.show_safety)
         self.act_keys = self._action("&Keyboard and mouse", lambda: self._info("Keyboard", helptext.shortcuts_html()))
         self.act_defs = self._action("Measurement &definitions", self.show_definitions)
@@ -125,7 +127,7 @@ class CommandsMixin:
         an.addAction(self.act_cancel)
         self._add_bench_analysis_items(an)
         h = mb.addMenu("&Help")
-        for a in (self.act_safety, self.act_keys, self.act_defs, self.act_about):
+        for a in (self.act_guide, self.act_safety, self.act_keys, self.act_defs, self.act_about):
             h.addAction(a)
 
     def _build_toolbar(self) -> None:
@@ -339,6 +341,14 @@ class CommandsMixin:
         box.setText(body)
         box.setIcon(QtWidgets.QMessageBox.Icon.NoIcon)
         box.open()
+
+    def show_guide(self) -> QtWidgets.QDialog:
+        """The README as the user guide (``guide``), non-modal."""
+        from .guide import guide_dialog
+        dlg = guide_dialog(self)
+        dlg.setObjectName("guide")
+        dlg.open()
+        return dlg
 
     def show_safety(self) -> None:
         self._info("Bench safety", helptext.SAFETY_HTML)

@@ -30,6 +30,7 @@ charge after power-off. Check with a meter before you touch.</li>
 """
 
 SHORTCUTS: tuple[tuple[str, str], ...] = (
+    ("F1", "The user guide"),
     ("Ctrl+O", "Open a capture"),
     ("] or Page Down", "Next cycle"),
     ("[ or Page Up", "Previous cycle"),

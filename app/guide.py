@@ -1,0 +1,61 @@
+"""The user guide in the Help menu: the README itself, shown as rich text with its pictures.
+
+One guide for both places: the README at the repository's root (or beside the program in a
+desktop bundle, or in the installed package) is read and shown by a :class:`QTextBrowser`
+(its Markdown reader), with the folder it came from on the search path so that the
+screenshots it names appear. Where no copy is found the dialog says where to read it.
+"""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+from PySide6 import QtCore, QtWidgets
+
+#: Where the guide is looked for, in order: a desktop bundle's data folder, the installed
+#: package's folder, the repository's root (an editable install or a checkout).
+def guide_candidates() -> list[Path]:
+    here = Path(__file__).resolve().parent
+    out = []
+    bundle = getattr(sys, "_MEIPASS", None)
+    if bundle:
+        out.append(Path(bundle) / "README.md")
+    out += [here.parent / "README.md", here.parent.parent / "README.md"]
+    return out
+
+
+def find_guide() -> Path | None:
+    """The first README found (:func:`guide_candidates`), or None."""
+    return next((p for p in guide_candidates() if p.is_file()), None)
+
+
+MISSING_HTML = ("<h3>User guide</h3><p>The guide is the README of trueslope's source folder; "
+                "no copy was found beside this program. Read it where trueslope was "
+                "obtained, or in the source folder's <code>README.md</code>.</p>")
+
+
+def guide_dialog(parent: QtWidgets.QWidget | None) -> QtWidgets.QDialog:
+    """A non-modal dialog showing the guide, about 80 % of the screen."""
+    dlg = QtWidgets.QDialog(parent)
+    dlg.setWindowTitle("trueslope user guide")
+    lay = QtWidgets.QVBoxLayout(dlg)
+    view = QtWidgets.QTextBrowser(dlg)
+    view.setObjectName("guide_view")
+    view.setOpenExternalLinks(True)
+    path = find_guide()
+    if path is None:
+        view.setHtml(MISSING_HTML)
+    else:
+        view.setSearchPaths([str(path.parent)])
+        view.document().setBaseUrl(QtCore.QUrl.fromLocalFile(str(path.parent) + "/"))
+        view.setMarkdown(path.read_text(encoding="utf-8"))
+    lay.addWidget(view, 1)
+    buttons = QtWidgets.QDialogButtonBox(QtWidgets.QDialogButtonBox.StandardButton.Close, dlg)
+    buttons.rejected.connect(dlg.reject)
+    lay.addWidget(buttons)
+    screen = (parent.screen() if parent is not None else None) or \
+        QtWidgets.QApplication.primaryScreen()
+    avail = screen.availableGeometry()
+    dlg.resize(int(0.8 * avail.width()), int(0.85 * avail.height()))
+    return dlg
