@@ -223,7 +223,8 @@ def cycle_pass(x: np.ndarray, dt: float, t0: float, seg: Segmentation, trim: flo
     # Blocks of whole cycles small enough that the dozen arrays of a block stay in the
     # processor's cache: every pass over a block then reads the cache, not memory.
     block = max(BLOCK_SAMPLES, 1)
-    kk_all = np.arange(int(min(x.size, block + int(np.max(r1 - r0)))) + 1, dtype=float)
+    kk_all = np.arange(int(min(x.size, block + int(np.max(r1 - r0, initial=0)))) + 1,
+                       dtype=float)
     shown = 0.0
     c0 = 0
     while c0 < nc:
