@@ -273,11 +273,8 @@ class WhatItTakes(QtWidgets.QGroupBox):
     def _on_prediction(self, _req, answer: ChangeAnswer) -> None:
         self.prediction = answer.prediction
         p = answer.prediction
-        note = f"Predicted: {answer.label}."
-        if p.remainder_clamped:
-            note += (" The measured shunt is already higher than the part taken away, so "
-                     "nothing else is taken to be across the capacitor.")
-        self.note.setText(note)
+        from trueslope.core.report.prose import prediction_notes
+        self.note.setText(f"Predicted: {answer.label}. {prediction_notes(p)}".strip())
         self._fill_table(p)
         self.prediction_changed.emit(p, answer.label)
 

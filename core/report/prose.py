@@ -413,3 +413,11 @@ def requirements_text(req: Requirements) -> list[str]:
         lines.append(f"With the measured shunt (time constant {si(req.measured_tau_s, 's')}), "
                      f"the ramp must last no longer than {si(req.max_ramp_time_s, 's')}.")
     return lines
+
+
+def prediction_notes(prediction) -> str:
+    """What to know of a predicted change (``whatif.ChangePrediction``), or ''."""
+    if getattr(prediction, "remainder_clamped", False):
+        return ("The measured shunt is already higher than the part taken away, so nothing "
+                "else is taken to be across the capacitor.")
+    return ""
