@@ -18,7 +18,7 @@ if [ ! -x "$PY" ]; then
     echo "build_bundle: no .venv here; set it up first with: bash packaging/dev.sh test" >&2
     exit 1
 fi
-if ! "$PY" -c "import PyInstaller" 2>/dev/null; then
+if ! "$PY" -I -c "import PyInstaller" 2>/dev/null; then
     echo "build_bundle: installing PyInstaller into .venv" >&2
     "$PY" -m pip install --quiet "pyinstaller>=6.10"
 fi

@@ -19,7 +19,7 @@ if [ ! -x "$PY" ]; then
     echo "check_wheel: no .venv here; set it up first with: bash packaging/dev.sh test" >&2
     exit 1
 fi
-if ! "$PY" -c "import build" 2>/dev/null; then
+if ! "$PY" -I -c "import build" 2>/dev/null; then  # -I: not the folder build/ here
     echo "check_wheel: installing the build package into .venv" >&2
     "$PY" -m pip install --quiet "build>=1.2"
 fi
