@@ -64,6 +64,13 @@ if (width, height) != (1600, 1000) or size < 50_000:
     sys.exit(f"build_bundle: {path} is {width}x{height}, {size} bytes: not the finished window")
 print(f"build_bundle: screenshot {path}: {width}x{height}, {size} bytes")
 EOF
+# Help > User guide reads the README beside the bundle's modules, with its screenshots
+for f in README.md packaging/screenshots/film_cap_ramp.png; do
+    if [ ! -s "$DIST/_internal/$f" ]; then
+        echo "build_bundle: the user guide's $f is missing from $DIST/_internal" >&2
+        exit 1
+    fi
+done
 summary="$(cd "$DIST" && ./trueslope analyze sample_captures/film_cap_ramp.csv)"
 echo "build_bundle: the bundle's analyze: ${summary%%$'\n'*}"
 t2=$(date +%s)
