@@ -45,8 +45,12 @@ LONG_PREAMBLE_LINES = 5000
 HEAD_BYTES = 64 * 1024
 MAX_HEAD_BYTES = 1024 * 1024
 #: Bytes of data parsed per block; progress and cancel are checked between blocks.
-BLOCK_BYTES = 16 * 1024 * 1024
+BLOCK_BYTES = 64 * 1024 * 1024
 MIN_BLOCK_BYTES = 64 * 1024
+#: Blocks a file is read in (fewer for a small one, more past BLOCK_BYTES each); a file
+#: parsed on the thread pool (THREADED_PARSE_BYTES) in fewer, so each call has work for it.
+BLOCKS_PER_FILE = 16
+BIG_FILE_BLOCKS = 4
 
 
 class _Blocks:
@@ -58,9 +62,10 @@ class _Blocks:
         self.mm, self.start, self.end = mm, start, end
         self.first_line, self.encoding, self.dialect, self.path = first_line, encoding, dialect, path
         self.bounds: list[tuple[int, int]] = []
-        # About 16 blocks for a mid-sized file, so progress moves; big blocks
-        # for a big file, so the parser's per-call cost stays small.
-        step = min(BLOCK_BYTES, max(MIN_BLOCK_BYTES, (end - start) // 16))
+        # A few blocks for a mid-sized file, so progress moves and cancel is heard; big
+        # blocks, because each call of the parser costs a start-up and a copy.
+        per = BLOCKS_PER_FILE if end - start < THREADED_PARSE_BYTES else BIG_FILE_BLOCKS
+        step = min(BLOCK_BYTES, max(MIN_BLOCK_BYTES, (end - start) // per))
         a = start
         while a < end:
             b = min(end, a + step)
@@ -391,7 +396,10 @@ def _read_data(mm: mmap.mmap, size: int, sniff: Sniff, path: str,
     columns = []
     for j in range(dia.fields):
         pieces = [piece for p in parts for piece in p[j]]
-        columns.append(np.concatenate(pieces) if pieces else np.empty(0))
+        if len(pieces) == 1 and pieces[0].flags.writeable and pieces[0].flags.owndata:
+            columns.append(pieces[0])  # already the block's own copy
+        else:
+            columns.append(np.concatenate(pieces) if pieces else np.empty(0))
         for p in parts:
             p[j] = []  # free block memory as we go
     if rows == 0:
