@@ -344,24 +344,22 @@ def _block(x: np.ndarray, base: int, stop: int, sl: slice, r0, r1, w0, w1, ps, p
     out["end"][sl] = me + bk * ((pe[sl] - base) - (e1 - 1 - 0.5 * (g - 1)))
     out["slope"][sl] = bk
     out["intercept"][sl] = ybar - bk * (kbar - s0)
-    # phase u = (k - s0) / ramp samples of every ramp sample, binned; each cycle's retrace
-    # goes to its group's spare bin (u pinned past the end), so no sample needs a mask
+    # phase u = (j - ramp start) / ramp samples of every sample, from its index j in the
+    # record (not in the block), so that a sample lands in the same bin whichever cycles
+    # share its block: the sums of some cycles can then be taken away exactly (``without``).
+    # Past its ramp's end (the retrace) a sample goes to the spare bin.
     inv = 1.0 / ramp_samples[sl]
-    seg_len = np.empty(2 * n, dtype=np.int64)
-    seg_len[0::2] = np.minimum(e1 - e0, owns)
-    seg_len[1::2] = owns - seg_len[0::2]
-    slope_u = np.zeros(2 * n)
-    slope_u[0::2] = inv
-    start_u = np.full(2 * n, -(bins + 0.5) / bins)
-    start_u[0::2] = s0 * inv
-    u = kk * np.repeat(slope_u, seg_len)
-    u -= np.repeat(start_u, seg_len)
+    rate = np.repeat(inv, owns)
+    u = kk + float(base)  # record indices, exact in float64
+    u *= rate
+    u -= np.repeat(ps[sl] * inv, owns)
     gi = (u * bins).astype(np.int64)
-    # only a ramp's first and last samples can fall outside [0, 1): the first by rounding
-    # (bin 0, as truncation gives), the last past the ramp's end by up to 1e-9 of a sample
-    # (the spare bin) or at its very end (the last bin)
+    np.minimum(gi, bins, out=gi)
+    # within a ramp only its last sample can reach phase 1: past the ramp's end by up to
+    # 1e-9 of a sample (the spare bin) or at its very end (the last bin); its first may be
+    # below 0 by rounding (bin 0, as truncation gives)
     last = e1 - 1
-    u_last = kk[last] * inv - s0 * inv
+    u_last = (last + float(base)) * inv - ps[sl] * inv
     gi[last] = np.where(u_last > 1.0, bins, np.minimum((u_last * bins).astype(np.int64),
                                                        bins - 1))
     if offset.size and np.any(offset):
