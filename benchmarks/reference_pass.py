@@ -117,8 +117,8 @@ def reference_pass(v: np.ndarray, starts: np.ndarray, stops: np.ndarray, trim: f
         out["intercept"][c0:c1] = at0 + slope * s
         # phase of every sample of its cycle: 0 to 1 over the ramp (its last sample in the
         # last bin), past the ramp the spare bin
-        span = (e - s - 1).astype(float)
-        u = (k - np.repeat(s, own)) / np.repeat(span, own)
+        inv = 1.0 / (e - s - 1)
+        u = (k + base) * np.repeat(inv, own) - np.repeat((s + base) * inv, own)
         gi = np.minimum((u * bins).astype(np.int64), bins)
         gi[e - 1] = bins - 1
         gi += np.repeat((np.arange(c0, c1) % groups) * width, own)
