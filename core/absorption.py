@@ -21,7 +21,7 @@ branch capacitors) and capacitances normalised by ``C``,
 ``M dx/dt = -K x``, ``M = diag(1, C_1/C, ..)``, ``K`` the symmetric
 conductance matrix over ``C`` (``g_i = (C_i/C) / tau_i`` between ``V`` and
 ``u_i``, plus ``1 / (R_short C)`` to ground while shorted). The generalised
-symmetric eigenproblem ``K phi = lambda M phi`` (:func:`scipy.linalg.eigh`)
+symmetric eigenproblem ``K phi = lambda M phi`` (:func:`numpy.linalg.eigh` of ``M^-1/2 K M^-1/2``)
 gives ``x(t) = Phi exp(-Lambda t) Phi^T M x(0)``. :func:`branch_from_relaxation`
 turns the one-capture diagnosis (a relaxation time and amplitude) into a branch
 through the periodic steady state of one branch (derived in its docstring).
@@ -34,10 +34,10 @@ from dataclasses import dataclass
 from typing import Iterable
 
 import numpy as np
-from scipy import linalg, optimize
-
 from .errors import AnalysisError
 from .jsonable import ToDict
+from .minimise import bounded_minimum
+from .rootfind import brentq
 
 #: The standard recovery test as commonly described (IEC 60384-1; SOURCES.md [absorption]):
 #: charge, short (through the resistance), highest reading within, s and ohm.
@@ -228,9 +228,9 @@ def _modes(ratios: np.ndarray, taus: np.ndarray, short_g: float) -> tuple[np.nda
     k[0, 0] = g.sum() + short_g
     k[0, 1:] = k[1:, 0] = -g
     k[1:, 1:] = np.diag(g)
-    m = np.diag(np.concatenate(([1.0], ratios)))
-    lam, phi = linalg.eigh(k, m)
-    return np.clip(lam, 0.0, None), phi, m
+    root = np.sqrt(np.concatenate(([1.0], ratios)))  # M diagonal: phi = M^-1/2 q, phi^T M phi = 1
+    lam, q = np.linalg.eigh(k / np.outer(root, root))
+    return np.clip(lam, 0.0, None), q / root[:, None], np.diag(root * root)
 
 
 def recovery(branches: Iterable[Branch | tuple[float, float]], charge_s: float, short_s: float,
@@ -298,9 +298,8 @@ def recovery(branches: Iterable[Branch | tuple[float, float]], charge_s: float, 
     if i >= grid.size - 1:
         return max(end, float(vals[i]))
     lo, hi = grid[max(i - 1, 0)], grid[i + 1]
-    res = optimize.minimize_scalar(lambda s: -float(v(s)[0]), bounds=(lo, hi), method="bounded",
-                                   options={"xatol": 1e-9 * hi})
-    return max(float(vals[i]), -float(res.fun), end)
+    _, low = bounded_minimum(lambda s: -float(v(s)[0]), lo, hi, xatol=1e-9 * hi)
+    return max(float(vals[i]), -float(low), end)
 
 
 def even_spread(per_decade: float, low_s: float, high_s: float,
@@ -458,7 +457,7 @@ def branch_from_relaxation(amplitude_fraction: float, tau_s: float, ramp_time_s:
 
     With the fitted late slope ``b / T = s / (1 + rho)`` the measured fraction is
     ``f = A_0 / b = rho (u_0 / s + tau') / T``, solved for ``rho`` by
-    :func:`scipy.optimize.brentq` (the right side rises with ``rho``).
+    ``rootfind.brentq`` (the right side rises with ``rho``).
 
     Parameters
     ----------
@@ -496,5 +495,5 @@ def branch_from_relaxation(amplitude_fraction: float, tau_s: float, ramp_time_s:
         hi *= 4.0
         if hi > 1e9:
             raise AnalysisError(f"no branch explains an amplitude fraction of {f!r}")
-    rho = optimize.brentq(excess, 0.0, hi, xtol=1e-15, rtol=1e-13)
+    rho = brentq(excess, 0.0, hi, xtol=1e-15, rtol=1e-13)
     return Branch(float(rho), float(tau_obs * (1.0 + rho)))

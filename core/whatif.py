@@ -16,7 +16,7 @@ answers the practitioner's next question with numbers (``report.prose`` words th
 
 Measurement frame throughout: a falling ramp is mirrored, as in ``selfcheck``.
 Shunt: SOURCES.md [loading]; voltage coefficient: SOURCES.md [voltage-coefficient];
-both solved for the target by ``scipy.optimize.brentq`` on a log scale (each
+both solved for the target by Brent's method (``rootfind.brentq``) on a log scale (each
 nonlinearity is monotone in its parameter).
 """
 
@@ -26,11 +26,11 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.optimize import brentq
 
 from .circuit import PREDICTION_POINTS, CircuitContext, predict_ramp
 from .errors import AnalysisError
 from .jsonable import ToDict
+from .rootfind import brentq
 from .results import Diagnosis, Figures
 from . import whatif_absorption as wa
 from .shapes import falling_capacitance

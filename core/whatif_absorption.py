@@ -19,11 +19,11 @@ import math
 from functools import lru_cache
 
 import numpy as np
-from scipy.optimize import brentq
 
 from .absorption import (DIELECTRIC_ABSORPTION, SPREAD_TOP_S, STANDARD_CHARGE_S,
                          STANDARD_READ_S, STANDARD_SHORT_S, even_spread, recovery)
 from .errors import AnalysisError
+from .rootfind import brentq
 
 #: The density per decade of the unit network the standard figure is scaled from.
 UNIT_PER_DECADE = 0.01
@@ -61,14 +61,13 @@ class _Network:
     With node voltages ``x = (v, u_1 .. u_n)`` and capacitances over ``C``
     (``M = diag(1, k_1 .. k_n)``), ``M dx/dt = -K x + f``: ``K`` the conductances over
     ``C`` (``k_i / tau_i`` between ``v`` and ``u_i``, ``1 / (R C)`` from ``v`` to ground),
-    ``f = (I / C, 0 ..)``. With ``S = M^-1/2 K M^-1/2 = Q L Q^T`` (``scipy.linalg.eigh``)
+    ``f = (I / C, 0 ..)``. With ``S = M^-1/2 K M^-1/2 = Q L Q^T`` (``numpy.linalg.eigh``)
     each mode obeys ``dz/dt = -l z + h``, so ``z(t) = z0 exp(-l t) + h t phi(l t)``,
     ``phi(a) = (1 - exp(-a)) / a`` (exact as ``l -> 0``, where the charge only grows).
     """
 
     def __init__(self, I: float, C: float, R: float | None,
                  branches: list[tuple[float, float]]) -> None:
-        from scipy import linalg
         self.k = np.array([b[0] for b in branches], dtype=float)
         self.tau = np.array([b[1] for b in branches], dtype=float)
         n = self.k.size + 1
@@ -79,7 +78,7 @@ class _Network:
         K[0, 1:] = K[1:, 0] = -g
         K[np.arange(1, n), np.arange(1, n)] = g
         self.root = np.sqrt(m)
-        lam, self.Q = linalg.eigh(K / np.outer(self.root, self.root))
+        lam, self.Q = np.linalg.eigh(K / np.outer(self.root, self.root))
         self.lam = np.clip(lam, 0.0, None)
         self.h = self.Q.T @ (np.eye(n)[0] * (I / C) / self.root)
 

@@ -8,6 +8,7 @@ terminal, the window and every export. Numbers inside sentences go through
 from __future__ import annotations
 
 import math
+from typing import TYPE_CHECKING
 
 from ..results import CheckItem, ContextCheck, Diagnosis
 from ..selfcheck import AGREES, DISAGREES
@@ -378,7 +379,8 @@ def selfcheck_summary(c: ContextCheck, diagnosis: Diagnosis | None) -> str:
     return " ".join(parts)
 
 
-from ..whatif import Requirements  # noqa: E402  (kept beside the one function that words it)
+if TYPE_CHECKING:  # the type only: whatif's solvers are not loaded to word a diagnosis
+    from ..whatif import Requirements
 
 
 def requirements_text(req: Requirements) -> list[str]:
