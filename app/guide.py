@@ -11,7 +11,7 @@ from __future__ import annotations
 import sys
 from pathlib import Path
 
-from PySide6 import QtCore, QtWidgets
+from PySide6 import QtCore, QtGui, QtWidgets
 
 #: Where the guide is looked for, in order: a desktop bundle's data folder, the installed
 #: package's folder, the repository's root (an editable install or a checkout).
@@ -58,4 +58,31 @@ def guide_dialog(parent: QtWidgets.QWidget | None) -> QtWidgets.QDialog:
         QtWidgets.QApplication.primaryScreen()
     avail = screen.availableGeometry()
     dlg.resize(int(0.8 * avail.width()), int(0.85 * avail.height()))
+    fit_pictures(view.document(), int(0.8 * avail.width()) - 80)
     return dlg
+
+
+def fit_pictures(doc: QtGui.QTextDocument, width_px: int) -> None:
+    """Shrink every picture wider than ``width_px`` to it (aspect kept), so a screenshot
+    reads whole without scrolling sideways."""
+    block = doc.begin()
+    while block.isValid():
+        it = block.begin()
+        while not it.atEnd():
+            frag = it.fragment()
+            fmt = frag.charFormat()
+            if frag.isValid() and fmt.isImageFormat():
+                img = fmt.toImageFormat()
+                res = doc.resource(QtGui.QTextDocument.ResourceType.ImageResource,
+                                   QtCore.QUrl(img.name()))
+                w = res.width() if hasattr(res, "width") else 0
+                if w > width_px:
+                    img.setWidth(width_px)
+                    img.setHeight(res.height() * width_px / w)
+                    cur = QtGui.QTextCursor(doc)
+                    cur.setPosition(frag.position())
+                    cur.setPosition(frag.position() + frag.length(),
+                                    QtGui.QTextCursor.MoveMode.KeepAnchor)
+                    cur.setCharFormat(img)
+            it += 1
+        block = block.next()
