@@ -13,6 +13,8 @@ from pathlib import Path
 
 from PySide6 import QtCore, QtGui, QtWidgets
 
+from .helptext import text_box
+
 #: Where the guide is looked for, in order: a desktop bundle's data folder, the installed
 #: package's folder, the repository's root (an editable install or a checkout).
 def guide_candidates() -> list[Path]:
@@ -37,10 +39,7 @@ MISSING_HTML = ("<h3>User guide</h3><p>The guide is the README of trueslope's so
 
 def guide_dialog(parent: QtWidgets.QWidget | None) -> QtWidgets.QDialog:
     """A non-modal dialog showing the guide, about 80 % of the screen."""
-    dlg = QtWidgets.QDialog(parent)
-    dlg.setWindowTitle("trueslope user guide")
-    lay = QtWidgets.QVBoxLayout(dlg)
-    view = QtWidgets.QTextBrowser(dlg)
+    dlg, view, avail = text_box(parent, "trueslope user guide")
     view.setObjectName("guide_view")
     view.setOpenExternalLinks(True)
     path = find_guide()
@@ -50,13 +49,6 @@ def guide_dialog(parent: QtWidgets.QWidget | None) -> QtWidgets.QDialog:
         view.setSearchPaths([str(path.parent)])
         view.document().setBaseUrl(QtCore.QUrl.fromLocalFile(str(path.parent) + "/"))
         view.setMarkdown(path.read_text(encoding="utf-8"))
-    lay.addWidget(view, 1)
-    buttons = QtWidgets.QDialogButtonBox(QtWidgets.QDialogButtonBox.StandardButton.Close, dlg)
-    buttons.rejected.connect(dlg.reject)
-    lay.addWidget(buttons)
-    screen = (parent.screen() if parent is not None else None) or \
-        QtWidgets.QApplication.primaryScreen()
-    avail = screen.availableGeometry()
     dlg.resize(int(0.8 * avail.width()), int(0.85 * avail.height()))
     fit_pictures(view.document(), int(0.8 * avail.width()) - 80)
     return dlg

@@ -104,24 +104,30 @@ TOOLS: tuple[tuple[str, str], ...] = (
 )
 
 
-def scrolling_dialog(parent, title: str, body_html: str):
-    """A non-modal box showing ``body_html`` in a scrolling view, sized to its text but
-    never taller than :data:`MAX_SCREEN_SHARE` of the screen's available height."""
+def text_box(parent, title: str):
+    """A dialog holding a text browser and a Close button: ``(dialog, browser, the
+    screen's available geometry)``."""
     from PySide6 import QtWidgets
 
     dlg = QtWidgets.QDialog(parent)
     dlg.setWindowTitle(title)
     lay = QtWidgets.QVBoxLayout(dlg)
     view = QtWidgets.QTextBrowser(dlg)
-    view.setOpenExternalLinks(False)
-    view.setHtml(body_html)
     lay.addWidget(view, 1)
     buttons = QtWidgets.QDialogButtonBox(QtWidgets.QDialogButtonBox.StandardButton.Close, dlg)
     buttons.rejected.connect(dlg.reject)
     lay.addWidget(buttons)
     screen = (parent.screen() if parent is not None else None) or \
         QtWidgets.QApplication.primaryScreen()
-    avail = screen.availableGeometry()
+    return dlg, view, screen.availableGeometry()
+
+
+def scrolling_dialog(parent, title: str, body_html: str):
+    """A non-modal box showing ``body_html`` in a scrolling view, sized to its text but
+    never taller than :data:`MAX_SCREEN_SHARE` of the screen's available height."""
+    dlg, view, avail = text_box(parent, title)
+    view.setOpenExternalLinks(False)
+    view.setHtml(body_html)
     width = min(720, int(0.9 * avail.width()))
     view.document().setTextWidth(width - 40)
     wanted = int(view.document().size().height()) + 90

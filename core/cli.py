@@ -86,6 +86,13 @@ def add_measure_options(p: argparse.ArgumentParser, reference_flag: str = "--ref
     """The options that say how each capture is measured: channels, window, interval and
     the circuit context (``reference_flag`` names the option of the reference voltage,
     which ``compare`` calls ``--reference-voltage``: its ``--reference`` is a file)."""
+    add_capture_options(p)
+    _add_circuit_options(p, reference_flag)
+
+
+def add_capture_options(p: argparse.ArgumentParser) -> None:
+    """The options that say how a capture is read and windowed: channels, trim, window,
+    interval (``explain`` takes these, and its circuit values once or per capture)."""
     p.add_argument("--channel", help="channel to measure, by name or 0-based index "
                    "(default: the first column holding a sawtooth)")
     p.add_argument("--sync-channel", help="logic-level channel marking each reset")
@@ -96,6 +103,9 @@ def add_measure_options(p: argparse.ArgumentParser, reference_flag: str = "--ref
                    help="explicit fit window in seconds from the ramp start, e.g. 20u,480u")
     p.add_argument("--sample-interval", metavar="S",
                    help="sample interval when the file has no time column, e.g. 2u or 2e-6")
+
+
+def _add_circuit_options(p: argparse.ArgumentParser, reference_flag: str) -> None:
     g = p.add_argument_group("circuit context (enables the self-check)")
     g.add_argument("--capacitance", help="timing capacitance, e.g. 47n")
     g.add_argument("--current", help="charging current, e.g. 1.2m")

@@ -13,7 +13,8 @@ import dataclasses
 import json
 from pathlib import Path
 
-from .cli import OneLineParser, _emit, _refuse, _settings, error_line, quiet_numerics
+from .cli import (OneLineParser, _emit, _refuse, _settings, add_capture_options, error_line,
+                  quiet_numerics)
 from .compare_cli import _progress, capture_files
 from .errors import SettingsError, TrueslopeError
 
@@ -31,15 +32,7 @@ def build_parser() -> OneLineParser:
                     "to take next when the set cannot decide.")
     p.add_argument("paths", nargs="+", metavar="FILE|FOLDER",
                    help="capture files of one circuit, or folders of them")
-    p.add_argument("--channel", help="channel to measure, by name or 0-based index")
-    p.add_argument("--sync-channel", help="logic-level channel marking each reset")
-    p.add_argument("--trim", type=float, default=None,
-                   help="fraction of each ramp trimmed at each end of the fit window "
-                        "(default 0.05)")
-    p.add_argument("--window", metavar="START,END",
-                   help="explicit fit window in seconds from the ramp start")
-    p.add_argument("--sample-interval", metavar="S",
-                   help="sample interval when a file has no time column, e.g. 2u")
+    add_capture_options(p)
     g = p.add_argument_group("circuit (once for every capture, or once per capture in file "
                              "order)")
     g.add_argument("--capacitance", action="append", default=[],
