@@ -242,8 +242,9 @@ class OverlayPlot(pg.PlotWidget):
         for side in ("left", "bottom"):
             item.getAxis(side).enableAutoSIPrefix(False)
         item.setTitle("Averaged residuals, normalised", color=theme.PLOT_FOREGROUND)
+        # two columns keep the key short; translucent, so a curve under it still shows
         self.legend = item.addLegend(offset=(-10, 10), labelTextColor=theme.PLOT_FOREGROUND,
-                                     brush=pg.mkBrush(255, 253, 249, 220))
+                                     brush=pg.mkBrush(255, 253, 249, 150), colCount=2)
         self.setMinimumHeight(220)
 
     def fill(self, c: Comparison | None, order: list[str]) -> None:
