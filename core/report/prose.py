@@ -411,6 +411,9 @@ def requirements_text(req: Requirements) -> list[str]:
         lines.append(f"The capacitor's dielectric may absorb at most "
                      f"{pct(req.max_absorption_pct)} in the standard recovery test (assuming "
                      f"absorption spread evenly per decade of time constant).")
+    elif req.measured_tau_s is not None:
+        lines.append("With the measured shunt no dielectric keeps the target: the shunt "
+                     "alone bends the ramp further.")
     if req.max_ramp_time_s is not None:
         lines.append(f"With the measured shunt (time constant {si(req.measured_tau_s, 's')}), "
                      f"the ramp must last no longer than {si(req.max_ramp_time_s, 's')}.")
