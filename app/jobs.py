@@ -221,15 +221,18 @@ class _Signals(QtCore.QObject):
     cancelled = QtCore.Signal(object)
 
 
-class _Job(QtCore.QRunnable):
+class _Job:
+    """One request's work on the pool. A plain object whose ``run`` the pool is given as a
+    callable: a Python subclass of QRunnable, deleted by the pool on its worker thread, takes
+    the bindings' lock before the interpreter's, the reverse of the garbage collector on the
+    GUI thread, and the two can wait on each other for ever."""
+
     def __init__(self, request: R, fn: JobFn[R], flag: threading.Event,
                  signals: _Signals) -> None:
-        super().__init__()
         self.request = request
         self.fn = fn
         self.flag = flag
         self.signals = signals
-        self.setAutoDelete(True)
 
     def run(self) -> None:  # worker thread
         last = [-1.0, 0.0]
@@ -316,7 +319,7 @@ class JobRunner(QtCore.QObject):
         signals.cancelled.connect(self._on_cancelled)
         self._running[request.id] = _Running(request, flag, signals)
         self._current = request.id
-        self._pool.start(_Job(request, fn, flag, signals))
+        self._pool.start(_Job(request, fn, flag, signals).run)
         if not was_busy:
             self.busy_changed.emit(True)
 
