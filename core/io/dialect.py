@@ -335,11 +335,18 @@ def sniff_lines(lines: list[tuple[int, str]], encoding: str, whole: bool,
     """
     best = None
     widest: tuple[int, int, str | None] | None = None  # (line index, fields, delimiter)
+    present = {c for c in (",", ";", "\t") if any(c in text for _, text in lines)}
+    seen: dict[tuple, list] = {}
     for prio, (d, dec) in enumerate(_CANDIDATES):
         if d == dec and not any("," in p for _, text in lines if '"' in text
                                 for p in split_row(text, d)):
             continue  # a comma is both only where quotes keep "1,015" whole
-        kinds = [_kind(text, d, dec, MAX_COLUMNS) for _, text in lines]
+        # a delimiter found on no line splits nothing: every such delimiter gives the same
+        # rows for a decimal mark, so they are classified once
+        key = ("absent", dec) if d is not None and d not in present else (d, dec)
+        kinds = seen.get(key)
+        if kinds is None:
+            kinds = seen[key] = [_kind(text, d, dec, MAX_COLUMNS) for _, text in lines]
         wide = next((i for i, kd in enumerate(kinds) if kd[0] == "wide"), None)
         if wide is not None and (widest is None or wide < widest[0]):
             widest = (wide, kinds[wide][1], d)
