@@ -222,10 +222,9 @@ class _Signals(QtCore.QObject):
 
 
 class _Job:
-    """One request's work on the pool. A plain object whose ``run`` the pool is given as a
-    callable: a Python subclass of QRunnable, deleted by the pool on its worker thread, takes
-    the bindings' lock before the interpreter's, the reverse of the garbage collector on the
-    GUI thread, and the two can wait on each other for ever."""
+    """One request's work on the pool: a plain object whose ``run`` the pool is given as a
+    callable, so that no Qt wrapper (a Python subclass of QRunnable) is deleted by the pool
+    on its worker thread (see ``JobRunner._retire``)."""
 
     def __init__(self, request: R, fn: JobFn[R], flag: threading.Event,
                  signals: _Signals) -> None:
@@ -289,6 +288,7 @@ class JobRunner(QtCore.QObject):
         self._pool.setMaxThreadCount(2)
         self._ids = itertools.count(1)
         self._running: dict[int, _Running] = {}
+        self._retired: list[_Signals] = []
         self._current: int | None = None
         self.dropped = 0
 
@@ -309,6 +309,7 @@ class JobRunner(QtCore.QObject):
     def submit(self, request: R, fn: JobFn[R]) -> None:
         """Start ``fn(request, progress, cancel)`` on the pool; it supersedes the current one."""
         was_busy = self.busy
+        self._retired.clear()  # their jobs ended before the answers that retired them
         if self._current is not None and self._current in self._running:
             self._running[self._current].flag.set()
         flag = threading.Event()
@@ -347,6 +348,11 @@ class JobRunner(QtCore.QObject):
         run = self._running.pop(request.id, None)
         if run is not None:
             run.signals.deleteLater()
+            # The worker still holds the signals for the few instructions after its last
+            # emit; were its reference the last, the wrapper would be freed on the worker
+            # thread, whose taking of the bindings' lock there can deadlock with the garbage
+            # collector on this thread. Keep it here until the next request.
+            self._retired.append(run.signals)
         current = self._is_current(request)
         if current:
             self._current = None

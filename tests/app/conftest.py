@@ -7,12 +7,34 @@ reads or writes the user's trueslope settings.
 
 from __future__ import annotations
 
+import gc
 import os
 
 os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
 
 import pytest  # noqa: E402
 from PySide6 import QtCore  # noqa: E402
+
+
+@pytest.fixture(scope="package", autouse=True)
+def _no_collection_inside_window_tests():
+    """The collector runs between window tests, never inside one: a collection on the GUI
+    thread while a worker thread runs Python has twice left both waiting for ever in CI
+    (the cause is not pinned down). It is switched on again for the tests after these."""
+    was = gc.isenabled()
+    gc.disable()
+    yield
+    if was:
+        gc.enable()
+    gc.collect()
+
+
+@pytest.fixture(autouse=True)
+def _collect_before_each_test():
+    """Before a test the previous one's windows are closed and their workers stopped, so
+    collecting then is safe."""
+    gc.collect()
+    yield
 
 
 @pytest.fixture(autouse=True)
