@@ -88,13 +88,16 @@ def predicted_pct(model: str, theta: Sequence[float], member, change: str, facto
     w0, w1 = member.window
     if model == "line":
         return 0.0
-    if model == "shunt-loading":
+    if model in ("shunt-loading", "shunt-and-spread"):
         tau = math.exp(theta[0]) * (member.capacitance_f if by_resistance else 1.0) * c_scale
         if swing >= s * tau:
             return None
         T = -tau * math.log1p(-swing / (s * tau))
         t = np.linspace(w0 * T, w1 * T, POINTS)
-        return _nonlinearity(t, s * rx.shunt_shape(t, tau))
+        g = rx.shunt_shape(t, tau)
+        if model == "shunt-and-spread":
+            g = g - rx.relaxation_terms(t, rx.branches_of(model, theta, band_s), T, tr)
+        return _nonlinearity(t, s * g)
     if model == "voltage-coefficient":
         beta = float(theta[0])
         T = (swing + beta * swing * swing / 2.0) / s
@@ -102,14 +105,6 @@ def predicted_pct(model: str, theta: Sequence[float], member, change: str, facto
         g = rx.voltage_shape(t, beta, s)
         return None if g is None or not T > 0 else _nonlinearity(t, s * g)
     branches = rx.branches_of(model, theta, band_s)
-    if model == "shunt-and-spread":
-        tau = math.exp(theta[0]) * (member.capacitance_f if by_resistance else 1.0) * c_scale
-        if swing >= s * tau:
-            return None
-        T = -tau * math.log1p(-swing / (s * tau))
-        t = np.linspace(w0 * T, w1 * T, POINTS)
-        return _nonlinearity(t, s * (rx.shunt_shape(t, tau)
-                                     - rx.relaxation_terms(t, branches, T, tr)))
     T = swing / s
     t = np.linspace(w0 * T, w1 * T, POINTS)
     return _nonlinearity(t, s * rx.relaxation_shape(t, branches, T, tr))
