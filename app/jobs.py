@@ -204,10 +204,6 @@ def run_analyse(req: AnalyseRequest, progress: ProgressFn, cancel: CancelFn) -> 
 
 def _answer(capture: Capture, analysis: Analysis, progress: ProgressFn, t0: float) -> JobResult:
     trace = trace_for(capture, analysis.channel)
-    # the cycle list reads every record; built here, not on the window's thread
-    records = getattr(analysis.cycles, "records", None)
-    if records is not None:
-        records()
     progress(1.0)
     return JobResult(capture, analysis, trace, None, time.perf_counter() - t0)
 

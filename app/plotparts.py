@@ -14,6 +14,8 @@ import numpy as np
 import pyqtgraph as pg
 from PySide6 import QtCore, QtGui
 
+from trueslope.core.percycle import cycle_column
+
 from . import theme
 
 if TYPE_CHECKING:
@@ -120,9 +122,9 @@ class CycleFits:
             return
         av = analysis.averaged
         cyc = analysis.cycles
-        starts = np.array([c.ramp_start_s for c in cyc], dtype=float)
-        slope = np.array([c.slope_v_per_s for c in cyc], dtype=float)
-        offset = np.array([c.offset_v for c in cyc], dtype=float)
+        starts = cycle_column(cyc, "ramp_start_s").astype(float)
+        slope = cycle_column(cyc, "slope_v_per_s")
+        offset = cycle_column(cyc, "offset_v")
         t = np.array([av.window_start_s, av.window_end_s], dtype=float)
         self._starts = starts
         self._x = starts[:, None] + t[None, :]

@@ -22,9 +22,11 @@ from __future__ import annotations
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Callable
 
+import numpy as np
 from PySide6 import QtCore, QtGui, QtWidgets
 
 from trueslope.core.errors import TrueslopeError
+from trueslope.core.percycle import cycle_column
 from trueslope.core.settings import MAX_TRIM_FRACTION, Settings
 
 from . import theme
@@ -373,10 +375,8 @@ class MainWindow(BenchMixin, CircuitMixin, NavigationMixin, CommandsMixin,
 
     @staticmethod
     def _first_cycle(a: Analysis) -> int:
-        for i, c in enumerate(a.cycles):
-            if not c.outlier:
-                return i
-        return 0
+        inside = np.flatnonzero(~cycle_column(a.cycles, "outlier"))
+        return int(inside[0]) if inside.size else 0
 
     def _measure_failed(self, req: Request, result: JobResult) -> None:
         exc = result.analysis_error

@@ -10,8 +10,6 @@ slicing, iteration and comparison build records on demand.
 
 from __future__ import annotations
 
-import gc
-import time
 from collections.abc import Sequence
 from dataclasses import dataclass, fields
 from typing import Iterator, overload
@@ -20,8 +18,6 @@ import numpy as np
 
 from .results import CycleFigures
 
-#: Records built between two offers of the interpreter's lock to other threads.
-RECORD_SLICE = 2000
 #: The record's fields in order; ``slope_ci95_v_per_s`` is stored as two columns.
 _FIELDS = tuple(f.name for f in fields(CycleFigures))
 
@@ -73,34 +69,7 @@ class CycleList(Sequence):
         return next(self._records([k % n]))
 
     def __iter__(self) -> Iterator[CycleFigures]:
-        built = self.__dict__.get("_built")
-        return iter(built) if built is not None else self._records(range(len(self)))
-
-    def records(self) -> tuple[CycleFigures, ...]:
-        """Every record, built once and kept (a worker thread builds them so that the
-        window's thread, iterating afterwards, only reads them).
-
-        Built in slices with the garbage collector paused: its passes over the hundreds of
-        thousands of new objects, and long slices, would hold the interpreter's lock from
-        a window's thread for a tenth of a second and more; between slices the lock is
-        offered to other threads."""
-        built = self.__dict__.get("_built")
-        if built is None:
-            parts: list[CycleFigures] = []
-            collecting = gc.isenabled()
-            try:
-                for a in range(0, len(self), RECORD_SLICE):
-                    gc.disable()
-                    parts.extend(self._records(range(a, min(a + RECORD_SLICE, len(self)))))
-                    if collecting:
-                        gc.enable()
-                    time.sleep(0)  # let another thread run
-            finally:
-                if collecting:
-                    gc.enable()
-            built = tuple(parts)
-            object.__setattr__(self, "_built", built)  # a cache, not a field: still frozen
-        return built
+        return self._records(range(len(self)))
 
     def __eq__(self, other: object) -> bool:
         if isinstance(other, (CycleList, tuple, list)):
@@ -135,3 +104,27 @@ class CycleList(Sequence):
         """The same cycles, those in ``excluded`` (bool per cycle) marked left out by hand."""
         return CycleList(**{**{f.name: getattr(self, f.name) for f in fields(self)},
                             "excluded": np.asarray(excluded, dtype=bool)})
+
+
+def cycle_column(cycles: Sequence[CycleFigures], name: str) -> np.ndarray:
+    """One figure of every cycle as an array, without building records.
+
+    ``name`` is a field of :class:`~trueslope.core.results.CycleFigures` (``index``,
+    ``ramp_start_s``, ``outlier`` ...; not ``slope_ci95_v_per_s``, whose ends are the
+    columns ``slope_ci_low_v_per_s`` and ``slope_ci_high_v_per_s`` of a
+    :class:`CycleList`). A :class:`CycleList` gives its own column (read-only view); any
+    other sequence of records is read record by record. ``None`` reads as NaN.
+    """
+    if isinstance(cycles, CycleList):
+        col = (np.arange(len(cycles), dtype=np.int64) if name == "index"
+               else getattr(cycles, name))
+        view = col.view()
+        view.flags.writeable = False
+        return view
+    if name in ("outlier", "excluded"):
+        return np.fromiter((bool(getattr(c, name)) for c in cycles), dtype=bool,
+                           count=len(cycles))
+    if name == "index":
+        return np.fromiter((c.index for c in cycles), dtype=np.int64, count=len(cycles))
+    return np.fromiter((np.nan if getattr(c, name) is None else getattr(c, name)
+                        for c in cycles), dtype=float, count=len(cycles))

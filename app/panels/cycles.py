@@ -7,20 +7,24 @@ cycle's figure is written as :func:`trueslope.core.report.numbers.figure_text`
 writes the summary figure of the same name, and its column carries that
 figure's label from :data:`~trueslope.core.report.numbers.FIGURES`.
 
-The model is lazy: it keeps the tuple of cycles and an order (a numpy index
-array), and writes a cell's text only when the view asks for it, so 100 000
-cycles fill the table in a few milliseconds. Columns are sized from a sample
+The model is lazy: it keeps the cycles (a
+:class:`~trueslope.core.percycle.CycleList`, columns of arrays) and an order (a numpy
+index array), builds a cycle's record and writes a cell's text only when the view asks
+for that row, and sorts on the columns themselves, so 100 000 cycles fill the table in
+a few milliseconds. Columns are sized from a sample
 of rows, never from every row.
 """
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, Callable
 
 import numpy as np
 from PySide6 import QtCore, QtGui, QtWidgets
 
+from trueslope.core.percycle import CycleList, cycle_column
 from trueslope.core.report.numbers import FIGURES, figure_text, si
 
 from .. import theme
@@ -82,11 +86,12 @@ def header_lines(header: str) -> str:
     return header.replace(" (", "\n(", 1)
 
 
-def _sort_key(c: CycleFigures, field: str) -> float:
+def _sort_keys(cycles: Sequence[CycleFigures], field: str) -> np.ndarray:
+    """The sort key of every cycle for the column of ``field`` (missing figures NaN)."""
     if field == "state":
-        return 2.0 if c.excluded else 1.0 if c.outlier else 0.0
-    v = getattr(c, field)
-    return float(v) if v is not None else float("nan")
+        return np.where(cycle_column(cycles, "excluded"), 2.0,
+                        np.where(cycle_column(cycles, "outlier"), 1.0, 0.0))
+    return cycle_column(cycles, field).astype(float)
 
 
 class CycleModel(QtCore.QAbstractTableModel):
@@ -103,10 +108,13 @@ class CycleModel(QtCore.QAbstractTableModel):
     """
 
     exclusion_toggled = QtCore.Signal(int, bool)
+    #: Records kept for the rows drawn (a screenful is a few dozen).
+    KEPT_RECORDS = 1024
 
     def __init__(self, parent: QtCore.QObject | None = None) -> None:
         super().__init__(parent)
-        self._cycles: tuple[CycleFigures, ...] = ()
+        self._cycles: Sequence[CycleFigures] = ()
+        self._shown: dict[int, CycleFigures] = {}  # records of the rows drawn, by position
         self._order = np.zeros(0, dtype=np.int64)
         self._rank = np.zeros(0, dtype=np.int64)
         self._sort: tuple[int, QtCore.Qt.SortOrder] | None = None
@@ -118,10 +126,12 @@ class CycleModel(QtCore.QAbstractTableModel):
 
     # -- contents -------------------------------------------------------------------
 
-    def set_cycles(self, cycles: tuple[CycleFigures, ...]) -> None:
-        """Show ``cycles`` (kept by reference; nothing is formatted until drawn)."""
+    def set_cycles(self, cycles: Sequence[CycleFigures]) -> None:
+        """Show ``cycles`` (kept by reference: a :class:`~trueslope.core.percycle.CycleList`
+        builds a record only for a row drawn; nothing is formatted until drawn)."""
         self.beginResetModel()
-        self._cycles = tuple(cycles)
+        self._cycles = cycles if isinstance(cycles, CycleList) else tuple(cycles)
+        self._shown = {}
         self._order = np.arange(len(self._cycles), dtype=np.int64)
         if self._sort is not None:
             self._apply_sort(*self._sort)
@@ -129,8 +139,17 @@ class CycleModel(QtCore.QAbstractTableModel):
         self.endResetModel()
 
     @property
-    def cycles(self) -> tuple[CycleFigures, ...]:
+    def cycles(self) -> Sequence[CycleFigures]:
         return self._cycles
+
+    def record(self, position: int) -> CycleFigures:
+        """The record of the cycle at ``position`` (built once, kept while shown)."""
+        c = self._shown.get(position)
+        if c is None:
+            if len(self._shown) >= self.KEPT_RECORDS:
+                self._shown.clear()
+            c = self._shown[position] = self._cycles[position]
+        return c
 
     def cycle_at(self, row: int) -> int:
         """Position in the cycles of the cycle shown in ``row``."""
@@ -142,7 +161,8 @@ class CycleModel(QtCore.QAbstractTableModel):
 
     def excluded(self) -> tuple[int, ...]:
         """Cycle indices (``CycleFigures.index``) left out by hand."""
-        return tuple(c.index for c in self._cycles if c.excluded)
+        out = cycle_column(self._cycles, "index")[cycle_column(self._cycles, "excluded")]
+        return tuple(int(i) for i in out)
 
     def _ranks(self) -> np.ndarray:
         rank = np.empty_like(self._order)
@@ -167,8 +187,7 @@ class CycleModel(QtCore.QAbstractTableModel):
 
     def _apply_sort(self, column: int, order: QtCore.Qt.SortOrder) -> None:
         field = CYCLE_COLUMNS[column].field
-        keys = np.fromiter((_sort_key(c, field) for c in self._cycles), dtype=float,
-                           count=len(self._cycles))
+        keys = _sort_keys(self._cycles, field)
         if order == QtCore.Qt.SortOrder.DescendingOrder:
             # Descending, yet equal keys keep their record order (missing ones last).
             idx = np.lexsort((np.arange(len(keys)), -np.nan_to_num(keys, nan=-np.inf)))
@@ -202,7 +221,7 @@ class CycleModel(QtCore.QAbstractTableModel):
     def data(self, index: QtCore.QModelIndex, role: int = Role.DisplayRole) -> Any:
         if not index.isValid():
             return None
-        c = self._cycles[self._order[index.row()]]
+        c = self.record(int(self._order[index.row()]))
         col = index.column()
         if role == Role.DisplayRole:
             return CYCLE_COLUMNS[col].text(c)
@@ -282,7 +301,7 @@ class CycleTable(QtWidgets.QTableView):
         rows = 5 * self.verticalHeader().defaultSectionSize()
         return QtCore.QSize(hint.width(), 2 * self.fontMetrics().height() + 14 + rows + 18)
 
-    def set_cycles(self, cycles: tuple[CycleFigures, ...]) -> None:
+    def set_cycles(self, cycles: Sequence[CycleFigures]) -> None:
         self._quiet = True
         try:
             self.cycle_model.set_cycles(cycles)
@@ -346,7 +365,7 @@ class CycleTable(QtWidgets.QTableView):
         cycles = self.cycle_model.cycles
         if not 0 <= position < len(cycles):
             return
-        index = cycles[position].index
+        index = self.cycle_model.record(position).index
         now = set(self.cycle_model.excluded())
         new = now | {index} if leave_out else now - {index}
         if new != now:
@@ -357,7 +376,7 @@ class CycleTable(QtWidgets.QTableView):
         if not idx.isValid():
             return
         position = self.cycle_model.cycle_at(idx.row())
-        c = self.cycle_model.cycles[position]
+        c = self.cycle_model.record(position)
         menu = QtWidgets.QMenu(self)
         act = menu.addAction(PUT_BACK if c.excluded else LEAVE_OUT)
         act.triggered.connect(lambda: self._toggle(position, not c.excluded))

@@ -247,12 +247,18 @@ def _grid_deviation(t: np.ndarray, dt: float) -> tuple[float, int]:
     n = t.shape[0]
     worst, at = 0.0, 0
     block = 1 << 16  # a block's temporaries stay in the processor's cache
+    step = dt * np.arange(min(n, block), dtype=np.float64)  # k dt within a block
+    dev = np.empty_like(step)
+    t0 = float(t[0])
     for a in range(0, n, block):
         b = min(n, a + block)
-        dev = np.abs(t[a:b] - (t[0] + dt * np.arange(a, b, dtype=np.float64)))
-        k = int(np.argmax(dev))
-        if dev[k] > worst:
-            worst, at = float(dev[k]), a + k
+        d = dev[:b - a]
+        np.subtract(t[a:b], t0 + dt * a, out=d)
+        d -= step[:b - a]
+        np.abs(d, out=d)
+        k = int(np.argmax(d))
+        if d[k] > worst:
+            worst, at = float(d[k]), a + k
     return worst, at
 
 

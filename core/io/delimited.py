@@ -155,14 +155,12 @@ def _arrow_reader(dialect: Dialect, threads: bool = False):
                               strings_can_be_null=False, quoted_strings_can_be_null=True,
                               decimal_point=dialect.decimal)
 
-    def read(view: memoryview) -> list[np.ndarray]:
+    def read(view: memoryview) -> list[list[np.ndarray]]:
         table = pacsv.read_csv(pa.BufferReader(pa.py_buffer(view)), read_options=ro,
                                parse_options=po, convert_options=co)
-        # each column copied out of Arrow's buffers at once, so the table is freed block by
-        # block (views would keep every block's buffers alive until the end)
-        out = [_float_chunks(table.column(i)) for i in range(k)]
-        del table
-        return [c[0] if len(c) == 1 else np.concatenate(c) for c in out]
+        # views of Arrow's buffers (they keep them alive): the caller copies them into the
+        # capture's arrays at once, so the block's buffers are freed block by block
+        return [_float_chunks(table.column(i)) for i in range(k)]
 
     return read, (pa.ArrowException,)
 
@@ -184,13 +182,52 @@ def _float_chunks(column) -> list[np.ndarray]:
     return out
 
 
+class _Columns:
+    """The capture's columns, filled block by block straight from the parser's pieces
+    (one copy of every number). Room is set from the bytes per row of the first block
+    (rows in a capture are alike in length), grown if a later block needs more, and the
+    spare cut off at the end."""
+
+    def __init__(self, fields: int, data_bytes: int) -> None:
+        self.fields, self.data_bytes, self.rows, self.bytes_done = fields, data_bytes, 0, 0
+        self.arrays = [np.empty(0) for _ in range(fields)]
+
+    def append(self, pieces: list[list[np.ndarray]], block_bytes: int) -> None:
+        n = sum(p.shape[0] for p in pieces[0]) if pieces else 0
+        self.bytes_done += block_bytes
+        need = self.rows + n
+        if need > self.arrays[0].shape[0]:
+            left = max(0, self.data_bytes - self.bytes_done)
+            per_byte = need / max(1, self.bytes_done)
+            self._grow(need + int(per_byte * left * 1.01) + 1024)
+        for j in range(self.fields):
+            at = self.rows
+            for piece in pieces[j]:
+                self.arrays[j][at:at + piece.shape[0]] = piece
+                at += piece.shape[0]
+        self.rows = need
+
+    def _grow(self, size: int) -> None:
+        for j, a in enumerate(self.arrays):
+            if a.shape[0] == 0:
+                self.arrays[j] = np.empty(size)
+            else:
+                a.resize(size, refcheck=False)  # in place where it can be (no other views)
+
+    def finish(self) -> list[np.ndarray]:
+        for a in self.arrays:
+            if a.shape[0] != self.rows:
+                a.resize(self.rows, refcheck=False)
+        return self.arrays
+
+
 def _pandas_reader(dialect: Dialect):
     import io
 
     import pandas as pd
     k = dialect.fields
 
-    def read(view: memoryview) -> list[np.ndarray]:
+    def read(view: memoryview) -> list[list[np.ndarray]]:
         df = pd.read_csv(io.BytesIO(view), sep=r"\s+", header=None, names=list(range(k)),
                          index_col=False, dtype=np.float64, decimal=dialect.decimal,
                          engine="c", skip_blank_lines=True)
@@ -198,7 +235,7 @@ def _pandas_reader(dialect: Dialect):
         if any(np.isnan(c).any() for c in out):
             # pandas pads a short row with NaN: let the exact reader decide.
             raise ValueError("NaN in block")
-        return out
+        return [[c] for c in out]
 
     return read, (ValueError, pd.errors.ParserError, pd.errors.EmptyDataError)
 
@@ -370,11 +407,10 @@ def _read_data(mm: mmap.mmap, size: int, sniff: Sniff, path: str,
             engine, engine_errors = _arrow_reader(dia, threads=size >= THREADED_PARSE_BYTES)
     except ImportError:
         engine, engine_errors = None, ()
-    parts: list[list[np.ndarray]] = []
     total = max(1, end - blk.start)
+    out = _Columns(dia.fields, end - blk.start)
     view = memoryview(mm)
     try:
-        rows = 0
         for a, b in blk.bounds:
             cancel()
             got = None
@@ -384,24 +420,15 @@ def _read_data(mm: mmap.mmap, size: int, sniff: Sniff, path: str,
                 except engine_errors:
                     got = None
             if got is None:
-                got = _parse_lines(blk, a, b, cancel)
-            got = [[c] for c in got]  # each column as pieces
-            blk.first_rows.append(rows)
-            rows += sum(piece.shape[0] for piece in got[0]) if got else 0
-            parts.append(got)
+                got = [[c] for c in _parse_lines(blk, a, b, cancel)]
+            blk.first_rows.append(out.rows)
+            out.append(got, b - a)
+            del got  # frees the block's buffers
             progress(0.02 + 0.93 * (b - blk.start) / total)
     finally:
         view.release()
-    # one copy of every piece into the capture's own (writable) arrays
-    columns = []
-    for j in range(dia.fields):
-        pieces = [piece for p in parts for piece in p[j]]
-        if len(pieces) == 1 and pieces[0].flags.writeable and pieces[0].flags.owndata:
-            columns.append(pieces[0])  # already the block's own copy
-        else:
-            columns.append(np.concatenate(pieces) if pieces else np.empty(0))
-        for p in parts:
-            p[j] = []  # free block memory as we go
+    columns = out.finish()
+    rows = out.rows
     if rows == 0:
         what = f" a header on line {sniff.header_line} but" if sniff.header_line else ""
         raise EmptyCaptureError(f"found{what} no rows of numbers to read", path)

@@ -305,6 +305,24 @@ def _refuse_decimal_commas(lines: list[tuple[int, str]], start: int, dec: str,
         raise CaptureFormatError(found[1], path, found[0])
 
 
+#: A row's kind does not depend on which digits it holds, only on where digits are, so
+#: rows are classified by their shape (every ASCII digit as 0): the rows of a capture
+#: come in a handful of shapes, each classified once per dialect.
+_DIGITS_AS_ZERO = str.maketrans("123456789", "000000000")
+
+
+def _kinds(shapes: list[str], d: str | None, dec: str) -> list[tuple[str, int, bool]]:
+    """:func:`row_kind` of every row shape (a shape met again reads its first answer)."""
+    known: dict[str, tuple[str, int, bool]] = {}
+    out = []
+    for shape in shapes:
+        kind = known.get(shape)
+        if kind is None:
+            kind = known[shape] = _kind(shape, d, dec, MAX_COLUMNS)
+        out.append(kind)
+    return out
+
+
 def sniff_lines(lines: list[tuple[int, str]], encoding: str, whole: bool,
                 path: str | None = None) -> Sniff | None:
     """Find the dialect, the data start, the header and the preamble.
@@ -336,6 +354,7 @@ def sniff_lines(lines: list[tuple[int, str]], encoding: str, whole: bool,
     best = None
     widest: tuple[int, int, str | None] | None = None  # (line index, fields, delimiter)
     present = {c for c in (",", ";", "\t") if any(c in text for _, text in lines)}
+    shapes = [text.translate(_DIGITS_AS_ZERO) for _, text in lines]
     seen: dict[tuple, list] = {}
     for prio, (d, dec) in enumerate(_CANDIDATES):
         if d == dec and not any("," in p for _, text in lines if '"' in text
@@ -346,7 +365,7 @@ def sniff_lines(lines: list[tuple[int, str]], encoding: str, whole: bool,
         key = ("absent", dec) if d is not None and d not in present else (d, dec)
         kinds = seen.get(key)
         if kinds is None:
-            kinds = seen[key] = [_kind(text, d, dec, MAX_COLUMNS) for _, text in lines]
+            kinds = seen[key] = _kinds(shapes, d, dec)
         wide = next((i for i, kd in enumerate(kinds) if kd[0] == "wide"), None)
         if wide is not None and (widest is None or wide < widest[0]):
             widest = (wide, kinds[wide][1], d)

@@ -18,6 +18,7 @@ import pytest
 from tests.support.synth import exponential, sawtooth
 from trueslope.core.analysis import analyse
 from trueslope.core.fit import cycle_pass, without
+from trueslope.core.percycle import cycle_column
 from trueslope.core.results import CycleFigures
 from trueslope.core.segment import segment
 
@@ -58,6 +59,20 @@ def test_cycle_list_reads_as_the_tuple_of_records(analysed):
         cycles[len(reference)]
     marked = cycles.with_excluded(np.arange(len(cycles)) == 2)
     assert marked[2].excluded and not marked[1].excluded and not cycles[2].excluded
+
+
+@pytest.mark.parametrize("name", ["index", "ramp_start_s", "slope_v_per_s", "offset_v",
+                                  "nonlinearity_pct", "outlier", "excluded"])
+def test_a_column_reads_as_the_records_field(analysed, name):
+    """``cycle_column`` gives the field of every record, from the list's own arrays and
+    from a plain tuple of records alike (reference: the records built by the constructor)."""
+    cycles = analysed.cycles.with_excluded(np.arange(len(analysed.cycles)) % 7 == 3)
+    reference = tuple(_by_constructor(cycles, i) for i in range(len(cycles)))
+    want = [getattr(c, name) for c in reference]
+    for source in (cycles, reference):
+        got = cycle_column(source, name)
+        assert got.tolist() == want
+    assert cycle_column(cycles, name).flags.writeable is False  # the list's arrays stay as they are
 
 
 def test_sums_taken_away_equal_a_direct_binning_of_the_kept_cycles():
