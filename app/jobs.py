@@ -106,11 +106,15 @@ class TraceData:
     all_finite : bool
         True when ``voltage_v`` holds no NaN or infinity (lets the plot skip
         its own check on millions of points).
+    voltage_range_v : (float, float) or None
+        Least and greatest voltage (of the finite ones), when known: the plot
+        then need not search millions of points for its bounds on the GUI thread.
     """
 
     time_s: np.ndarray
     voltage_v: np.ndarray
     all_finite: bool
+    voltage_range_v: tuple[float, float] | None = None
 
 
 @dataclass(frozen=True)
@@ -142,7 +146,9 @@ class JobResult:
 def trace_for(capture: Capture, channel: str) -> TraceData:
     """Time and voltage of one channel, ready to plot."""
     _, v = capture.channel(channel)
-    return TraceData(capture.time_s(), v, bool(np.isfinite(v).all()))
+    finite = bool(np.isfinite(v).all())
+    span = (float(np.min(v)), float(np.max(v))) if finite and v.size else None
+    return TraceData(capture.time_s(), v, finite, span)
 
 
 def _raw_trace(capture: Capture, channel: str | int | None) -> TraceData | None:

@@ -50,6 +50,9 @@ class TraceCurve(pg.PlotDataItem):
     def __init__(self, *args: Any, **kwargs: Any) -> None:
         super().__init__(*args, **kwargs)
         self.y_all_finite = False
+        #: (t0, t1, v0, v1), the data's bounds when known (measured off the GUI thread);
+        #: given to the raw dataset so that pyqtgraph does not search every sample for them
+        self.bounds: tuple[float, float, float, float] | None = None
 
     def _getDisplayDataset(self):  # noqa: N802 (pyqtgraph naming)
         for name in ("_dataset", "_datasetMapped"):
@@ -58,10 +61,62 @@ class TraceCurve(pg.PlotDataItem):
                 ds.xAllFinite = True
                 if self.y_all_finite:
                     ds.yAllFinite = True
+        bounds = getattr(self, "bounds", None)  # (pyqtgraph's __init__ draws before ours runs)
+        raw = getattr(self, "_dataset", None)
+        if (bounds is not None and raw is not None and hasattr(raw, "_dataRect")
+                and raw.x is not None and raw.x.size and raw.x[0] == bounds[0]
+                and raw.x[-1] == bounds[1]):  # the bounds are of these data
+            t0, t1, v0, v1 = bounds
+            rect = QtCore.QRectF(QtCore.QPointF(t0, v0), QtCore.QPointF(t1, v1))
+            if raw._dataRect is None:
+                raw._dataRect = rect
+            # the "mapped" dataset pyqtgraph would make from the raw one with no mapping
+            # on (the same arrays), made here so that it carries the bounds too
+            o = self.opts
+            if (getattr(self, "_datasetMapped", 0) is None and not any(o["logMode"])
+                    and not (o["subtractMeanMode"] or o["fftMode"] or o["derivativeMode"]
+                             or o["phasemapMode"])
+                    and raw.x.dtype.kind == "f" and raw.y.dtype.kind == "f"):
+                mapped = type(raw)(raw.x, raw.y, raw.xAllFinite, raw.yAllFinite)
+                mapped._dataRect = rect
+                self._datasetMapped = mapped
         return super()._getDisplayDataset()
 
 
-class PercentAxis(pg.AxisItem):
+class DirectAxis(pg.AxisItem):
+    """An axis that draws its ticks and labels straight onto the view's painter.
+
+    pyqtgraph's axis records its drawing in a ``QPicture`` and replays it at every
+    paint; replaying text resolves its font again each time (about 7 ms an axis on the
+    bench machine, most of a redraw). This one keeps what it worked out (the draw
+    specifications) in the same slot, so pyqtgraph's own invalidation (``picture =
+    None`` on any change of range, size, style or labels) still applies, and draws them
+    each paint.
+    """
+
+    def paint(self, p: QtGui.QPainter, opt: Any, widget: Any) -> None:
+        font = self.style["tickFont"]
+        p.save()
+        try:
+            if font:
+                p.setFont(font)
+            if self.picture is None:
+                self.picture = (self.generateDrawSpecs(p),)
+            specs = self.picture[0]
+            if specs is not None:
+                self.drawPicture(p, *specs)
+        finally:
+            p.restore()
+
+
+def direct_axes(**others: pg.AxisItem) -> dict[str, pg.AxisItem]:
+    """Axis items for a plot: :class:`DirectAxis` on the left and bottom, and ``others``."""
+    axes: dict[str, pg.AxisItem] = {"left": DirectAxis("left"), "bottom": DirectAxis("bottom")}
+    axes.update(others)
+    return axes
+
+
+class PercentAxis(DirectAxis):
     """An axis that labels a volts view in percent of a span.
 
     The view stays in volts; this axis only chooses round percentages for its

@@ -28,7 +28,8 @@ from PySide6 import QtCore
 
 from . import theme
 from .jobs import TraceData
-from .plotparts import CycleFits, PercentAxis, PredictionLayer, TraceCurve, key_html, ordinal
+from .plotparts import (CycleFits, PercentAxis, PredictionLayer, TraceCurve, direct_axes,
+                        key_html, ordinal)
 from .plotparts import pen as _pen
 
 if TYPE_CHECKING:
@@ -68,9 +69,9 @@ class PlotArea(pg.GraphicsLayoutWidget):
         self._trace_key: str | None = None
         self._residual_key: str | None = None
 
-        self.trace_plot: pg.PlotItem = self.addPlot(row=0, col=0)
+        self.trace_plot: pg.PlotItem = self.addPlot(row=0, col=0, axisItems=direct_axes())
         self.residual_plot: pg.PlotItem = self.addPlot(
-            row=1, col=0, axisItems={"right": PercentAxis("right")})
+            row=1, col=0, axisItems=direct_axes(right=PercentAxis("right")))
         lay = self.ci.layout
         lay.setRowStretchFactor(0, 3)
         lay.setRowStretchFactor(1, 2)
@@ -158,6 +159,9 @@ class PlotArea(pg.GraphicsLayoutWidget):
             ax = plot.getAxis(name)
             ax.setPen(_pen(theme.PLOT_FOREGROUND))
             ax.setTextPen(_pen(theme.PLOT_FOREGROUND))
+            # major and minor ticks and grid lines, not pyqtgraph's third, faintest level:
+            # its lines, drawn across the whole plot, cost half of every redraw
+            ax.setStyle(maxTickLevel=1)
         plot.getAxis("left").setWidth(_AXIS_WIDTH)
         plot.getAxis("right").setWidth(_AXIS_WIDTH)
 
@@ -195,6 +199,9 @@ class PlotArea(pg.GraphicsLayoutWidget):
         self.trace_curve.y_all_finite = trace.all_finite
         t = trace.time_s
         self._t_range = (float(t[0]), float(t[-1])) if len(t) else None
+        vr = trace.voltage_range_v
+        self.trace_curve.bounds = (self._t_range + vr if self._t_range is not None
+                                   and vr is not None and trace.all_finite else None)
         self.trace_curve.setSkipFiniteCheck(trace.all_finite)
         self.trace_curve.setData(trace.time_s, trace.voltage_v, connect="all" if trace.all_finite else "finite")
 
