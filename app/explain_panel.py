@@ -19,7 +19,7 @@ import pyqtgraph as pg
 from PySide6 import QtCore, QtWidgets
 
 from . import theme
-from .plotparts import key_html, pen
+from .plotparts import direct_axes, key_html, pen
 
 #: What the panel says before anything was explained.
 EMPTY_TEXT = ("Explain finds the one cause that accounts for several captures of the same "
@@ -165,7 +165,7 @@ class ExplainPanel(QtWidgets.QWidget):
         first = None
         for k, c in enumerate(curves):
             row, col = divmod(k, columns)  # in reading order
-            p = self.graphs.addPlot(row=row, col=col)
+            p = self.graphs.addPlot(row=row, col=col, axisItems=direct_axes())
             self._style(p, c, bottom=k + columns >= n)
             p.addItem(pg.InfiniteLine(0.0, angle=0, pen=pen(theme.ZERO_LINE, 1)),
                       ignoreBounds=True)
