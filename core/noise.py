@@ -42,11 +42,36 @@ MAD_PER_SIGMA = 0.6744897501960817
 CHI2_1_MEDIAN = 0.454936423119572
 
 
-def robust_sigma(values: np.ndarray) -> float:
-    """Normal-consistent robust standard deviation: 1.4826 x the median absolute deviation."""
+def _median_in_place(v: np.ndarray) -> float:
+    """``numpy.median`` of a float array of the caller's own, which it sorts.
+
+    The same value as ``numpy.median`` (the middle of the sorted values, or the mean
+    of the two middle ones). numpy's sort is vectorised; its partition at the middle,
+    which ``numpy.median`` uses, is several times slower on quantised samples, whose
+    differences are mostly equal (measured on the project machine, 2 M values: sort
+    2-5 ms, ``numpy.median`` 8-25 ms, a partition at the middle alone up to 57 ms)."""
+    n = v.size
+    v.sort()
+    if np.isnan(v[-1]):
+        return float("nan")  # sorted last, as numpy's median says
+    k = n // 2
+    if n % 2:
+        return float(v[k])
+    return float((v[k - 1] + v[k]) / 2)
+
+
+def robust_sigma(values: np.ndarray, overwrite: bool = False) -> float:
+    """Normal-consistent robust standard deviation: 1.4826 x the median absolute deviation.
+
+    With ``overwrite`` the values (a float64 array of the caller's own) are the working
+    space (reordered and overwritten) instead of a copy."""
     if not values.size:
         return 0.0
-    return float(np.median(np.abs(values - np.median(values)))) / MAD_PER_SIGMA
+    work = values if overwrite else np.array(values, dtype=float)
+    med = _median_in_place(work)
+    np.subtract(work, med, out=work)
+    np.abs(work, out=work)
+    return _median_in_place(work) / MAD_PER_SIGMA
 
 
 def estimate_noise_rms(x: np.ndarray) -> float:
@@ -61,7 +86,7 @@ def estimate_noise_rms(x: np.ndarray) -> float:
         d = np.concatenate([np.diff(x[s:s + 50_000]) for s in starts])
     else:
         d = np.diff(x)
-    return robust_sigma(d) / math.sqrt(2.0)
+    return robust_sigma(np.asarray(d, dtype=float), overwrite=True) / math.sqrt(2.0)
 
 
 def adc_step(v: np.ndarray) -> float | None:

@@ -14,6 +14,7 @@ import dataclasses
 import numpy as np
 
 from .artefacts import Clipping, extremes, find_clipping, find_spikes, without_spikes
+from .crossings import crossings_up, enter_leave, first_up_after, last_up_before
 from .edges import (fast_corners, interpolate_crossing, local_crossing, slow_corners,
                     window_argext)
 from .errors import NoFullCycleError, NotASawtoothError
@@ -33,66 +34,6 @@ MIN_EDGE_RATIO = 4.0
 FAST_EDGE_SAMPLES = 4.0
 
 
-#: Samples compared at a time when looking for threshold crossings: the block's boolean
-#: arrays stay in the processor's cache, and no whole-record temporary is made.
-CROSSING_BLOCK = 1 << 16
-
-
-def _enter_leave(x: np.ndarray, lower: float, upper: float
-                 ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-    """For ``c = x > upper``, then for ``c = x < lower``: every ``i >= 1`` with ``c[i]`` and
-    not ``c[i - 1]`` (entering), and every ``k`` with ``c[k]`` and not ``c[k + 1]`` (the
-    last sample before leaving). One pass over the record: each block is compared with
-    both levels while it is in the processor's cache.
-
-    Returns ``(enter_high, leave_high, enter_low, leave_low)``."""
-    found: list[list[np.ndarray]] = [[np.zeros(0, dtype=np.int64)] for _ in range(4)]
-    for a in range(0, max(x.size - 1, 0), CROSSING_BLOCK):
-        part = x[a:a + CROSSING_BLOCK + 1]
-        for k, c in enumerate((part > upper, part < lower)):
-            was, now = c[:-1], c[1:]
-            found[2 * k].append(np.flatnonzero(now > was) + (a + 1))
-            found[2 * k + 1].append(np.flatnonzero(was > now) + a)
-    eh, lh, el, ll = (np.concatenate(f) for f in found)
-    return eh, lh, el, ll
-
-
-def _crossings_up(x: np.ndarray, levels: list[float]) -> list[tuple[np.ndarray, np.ndarray]]:
-    """Every upward crossing of each of ``levels``, in one pass over the record: for
-    each level, the index i of the first sample above it, and the fractional index where
-    the segment (i-1, i) crosses. Each block is compared with every level while it is in
-    the processor's cache."""
-    found: list[list[np.ndarray]] = [[] for _ in levels]
-    for a in range(0, max(x.size - 1, 0), CROSSING_BLOCK):
-        part = x[a:a + CROSSING_BLOCK + 1]
-        for k, level in enumerate(levels):
-            c = part > level
-            found[k].append(np.flatnonzero(c[1:] > c[:-1]) + (a + 1))
-    out = []
-    for level, parts in zip(levels, found):
-        i = np.concatenate(parts) if parts else np.zeros(0, dtype=np.int64)
-        out.append((i, interpolate_crossing(x, i, level)))
-    return out
-
-
-def _first_up_after(crossings: tuple[np.ndarray, np.ndarray], t: np.ndarray) -> np.ndarray:
-    """The first of ``crossings`` (from :func:`_crossings_up`) at or after each ``t``."""
-    i, f = crossings
-    if i.size == 0:
-        return np.full(t.shape, np.nan)
-    j = np.searchsorted(i, t, side="left")
-    return np.where(j < i.size, f[np.minimum(j, i.size - 1)], np.nan)
-
-
-def _last_up_before(crossings: tuple[np.ndarray, np.ndarray], t: np.ndarray) -> np.ndarray:
-    """The last of ``crossings`` at or before each ``t``."""
-    i, f = crossings
-    if i.size == 0:
-        return np.full(t.shape, np.nan)
-    j = np.searchsorted(i, t, side="right") - 1
-    return np.where(j >= 0, f[np.maximum(j, 0)], np.nan)
-
-
 def _dwell_margin(period_samples: float) -> float:
     """How far a boundary must move to count: more than 3 samples and 1 % of the period,
     so noise and the gentle curvature of a loaded ramp never move one."""
@@ -108,8 +49,8 @@ def _skip_low_dwell(up10: tuple[np.ndarray, np.ndarray], up30: tuple[np.ndarray,
     sat at the bottom first (a reset held by a one-shot, say): the ramp starts there
     instead.
     """
-    t10 = _first_up_after(up10, start)
-    t30 = _first_up_after(up30, start)
+    t10 = first_up_after(up10, start)
+    t30 = first_up_after(up30, start)
     t0 = t10 - 0.5 * (t30 - t10)
     ok = np.isfinite(t0) & (t30 < limit) & (t0 - start > _dwell_margin(period_samples))
     return np.where(ok, t0, start)
@@ -119,8 +60,8 @@ def _cut_high_plateau(up70: tuple[np.ndarray, np.ndarray], up90: tuple[np.ndarra
                       end: np.ndarray, limit: np.ndarray, period_samples: float) -> np.ndarray:
     """Ramp ends moved before a plateau at the high level (clipping, a current source
     out of headroom): the 70 % and 90 % upward crossings extrapolated to the high level."""
-    t90 = _last_up_before(up90, end)
-    t70 = _last_up_before(up70, end)
+    t90 = last_up_before(up90, end)
+    t70 = last_up_before(up70, end)
     t100 = t90 + 0.5 * (t90 - t70)
     ok = np.isfinite(t100) & (t70 > limit) & (end - t100 > _dwell_margin(period_samples))
     return np.where(ok, t100, end)
@@ -136,7 +77,7 @@ def _transitions(x: np.ndarray, lower: float, upper: float) -> tuple[np.ndarray,
         and the last sample below ``lower`` before it; likewise for
         high-to-low transitions.
     """
-    enter_hi, leave_hi, enter_lo, leave_lo = _enter_leave(x, lower, upper)
+    enter_hi, leave_hi, enter_lo, leave_lo = enter_leave(x, lower, upper)
     if x.size and x[0] > upper:
         enter_hi = np.concatenate(([0], enter_hi))
     if x.size and x[0] < lower:
@@ -431,7 +372,7 @@ def _build(xm: np.ndarray, lo_m: float, span: float, levels: StateLevels, direct
     # the 10 % and 30 % upward crossings for a dwell at the bottom, the 70 % and 90 % ones
     # for a plateau at the top (one pass over the record for all that are needed)
     fractions = ((0.1, 0.3) if not clipped[0] else ()) + ((0.7, 0.9) if not clipped[1] else ())
-    up = dict(zip(fractions, _crossings_up(xm, [lo_m + f * span for f in fractions])))
+    up = dict(zip(fractions, crossings_up(xm, [lo_m + f * span for f in fractions])))
     starts = trough if clipped[0] else _skip_low_dwell(up[0.1], up[0.3], trough,
                                                        np.append(peak[1:], n), period_samples)
     ends = peak[1:] if clipped[1] else _cut_high_plateau(up[0.7], up[0.9], peak[1:],
