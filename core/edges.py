@@ -55,14 +55,40 @@ def window_argext(x: np.ndarray, starts: np.ndarray, width: int, kind: str) -> n
 
 
 def _local_lines(xm: np.ndarray, first: np.ndarray, m: int) -> tuple[np.ndarray, np.ndarray]:
-    """Least-squares line ``a + b k`` through the ``m`` samples from each ``first``."""
-    idx = np.clip(first[:, None] + np.arange(m)[None, :], 0, xm.size - 1)
-    k = idx.astype(float)
-    y = xm[idx]
-    kb, yb = k.mean(axis=1), y.mean(axis=1)
-    sxx = ((k - kb[:, None]) ** 2).sum(axis=1)
-    b = ((k - kb[:, None]) * (y - yb[:, None])).sum(axis=1) / np.where(sxx > 0, sxx, 1.0)
-    return yb - b * kb, b
+    """Least-squares line ``a + b k`` through the ``m`` samples from each ``first``.
+
+    Centred sums, ``b = sum (k - kbar)(y - ybar) / sum (k - kbar)^2``. Where the ``m``
+    samples lie inside the record, ``k - kbar`` is ``j - (m - 1) / 2`` for ``j < m``,
+    exactly (the sums of whole numbers are exact in floating point), so those rows share
+    one row of centred indices and one ``sum (k - kbar)^2``; rows cut by either end of
+    the record (their indices clipped) are worked out in full."""
+    n = xm.size
+    first = np.asarray(first, dtype=np.int64)
+    inside = (first >= 0) & (first <= n - m)
+    a = np.empty(first.shape)
+    b = np.empty(first.shape)
+    if np.any(inside):
+        f = first[inside]
+        d = np.arange(m) - 0.5 * (m - 1)  # k - kbar, the same for every row
+        y = xm[f[:, None] + np.arange(m)[None, :]]
+        yb = y.mean(axis=1)
+        y -= yb[:, None]
+        y *= d[None, :]
+        sxx = float((d * d).sum())
+        bi = y.sum(axis=1) / (sxx if sxx > 0 else 1.0)
+        b[inside] = bi
+        a[inside] = yb - bi * (f + 0.5 * (m - 1))
+    if not np.all(inside):
+        out = ~inside
+        idx = np.clip(first[out][:, None] + np.arange(m)[None, :], 0, n - 1)
+        k = idx.astype(float)
+        y = xm[idx]
+        kb, yb = k.mean(axis=1), y.mean(axis=1)
+        sxx_o = ((k - kb[:, None]) ** 2).sum(axis=1)
+        bo = ((k - kb[:, None]) * (y - yb[:, None])).sum(axis=1) / np.where(sxx_o > 0, sxx_o, 1.0)
+        b[out] = bo
+        a[out] = yb - bo * kb
+    return a, b
 
 
 def _line_samples(period_samples: float) -> int:

@@ -1,4 +1,4 @@
-"""The segmenter's one-pass threshold crossings equal numpy's direct definition.
+"""The segmenter's one-pass threshold crossings and local lines equal their direct definitions.
 
 ``crossings.crossings_up`` (upward crossings of several levels at once) and
 ``crossings.enter_leave`` (entering and leaving the bands above and below the Schmitt
@@ -50,3 +50,26 @@ def test_entering_and_leaving_the_bands_beyond_both_thresholds(seed, n):
         want += [np.flatnonzero(c[1:] & ~c[:-1]) + 1, np.flatnonzero(c[:-1] & ~c[1:])]
     for g, w in zip(got, want):
         assert np.array_equal(g, w)
+
+
+def test_local_lines_equal_the_centred_sums_written_out():
+    """``edges._local_lines`` shares one row of centred indices between the rows that lie
+    inside the record: the same lines, to the last bit, as the centred least-squares sums
+    written out for every row (reference: the textbook formula ``b = sum (k - kbar)(y -
+    ybar) / sum (k - kbar)^2``, ``a = ybar - b kbar``, with numpy), rows cut by the ends of
+    the record included."""
+    from trueslope.core.edges import _local_lines
+    rng = np.random.default_rng(2)
+    for trial in range(60):
+        n = int(rng.integers(5, 5000))
+        m = int(rng.integers(3, 21))
+        xm = np.round(rng.normal(size=n).cumsum(), 2)
+        first = rng.integers(-m - 3, n + 3, size=int(rng.integers(1, 300)))
+        idx = np.clip(first[:, None] + np.arange(m)[None, :], 0, n - 1)
+        k = idx.astype(float)
+        y = xm[idx]
+        kb, yb = k.mean(axis=1), y.mean(axis=1)
+        sxx = ((k - kb[:, None]) ** 2).sum(axis=1)
+        b = ((k - kb[:, None]) * (y - yb[:, None])).sum(axis=1) / np.where(sxx > 0, sxx, 1.0)
+        got_a, got_b = _local_lines(xm, first, m)
+        assert np.array_equal(got_b, b) and np.array_equal(got_a, yb - b * kb), trial
