@@ -176,11 +176,19 @@ def _span(locate: Locator, a: int, b: int) -> tuple[int | None, str]:
     return la, f"{ta} to {tb.split()[-1]}"
 
 
-def _check_finite(cols: list[Column], locate: Locator, path: str) -> None:
+def _bounds(cols: list[Column]) -> dict[int, tuple[float, float]]:
+    """Least and greatest value of each column (by ``id``): a NaN makes both NaN and an
+    infinity one of them, so finite bounds say the whole column is finite."""
+    return {id(c): (float(np.min(c.values)), float(np.max(c.values))) for c in cols}
+
+
+def _check_finite(cols: list[Column], locate: Locator, path: str,
+                  bounds: dict[int, tuple[float, float]]) -> None:
     bad: np.ndarray | None = None
     names = []
     for c in cols:
-        if np.isfinite(c.values).all():
+        lo, hi = bounds[id(c)]
+        if math.isfinite(lo) and math.isfinite(hi):
             continue
         m = ~np.isfinite(c.values)
         names.append(c.name or f"column {c.number}")
@@ -199,14 +207,15 @@ def _check_finite(cols: list[Column], locate: Locator, path: str) -> None:
 
 
 def _check_range(cols: list[Column], time_col: Column | None, locate: Locator,
-                 path: str) -> None:
+                 path: str, bounds: dict[int, tuple[float, float]]) -> None:
     """Refuse a sample beyond the bench bounds; then scale every column to SI."""
     for c in cols:
         is_time = c is time_col
         bound, unit = (MAX_ABS_TIME_S, "s") if is_time else (MAX_ABS_VOLTS, "V")
         lim = bound / c.scale
         v = c.values
-        if v.max() > lim or v.min() < -lim:
+        lo, hi = bounds[id(c)]
+        if hi > lim or lo < -lim:
             i = int(np.flatnonzero(np.abs(v) > lim)[0])
             line, where = locate.where(i)
             raw = float(v[i])
@@ -381,8 +390,10 @@ def assemble(columns: list[Column], *, path: str, locate: Locator, layout: str,
             f"only {n} sample{'s' if n != 1 else ''} found; at least {MIN_SAMPLES} are needed "
             f"to measure a ramp", path)
 
-    _check_finite(([time_col] if time_col else []) + channels, locate, path)
-    _check_range(([time_col] if time_col else []) + channels, time_col, locate, path)
+    checked = ([time_col] if time_col else []) + channels
+    bounds = _bounds(checked)
+    _check_finite(checked, locate, path, bounds)
+    _check_range(checked, time_col, locate, path, bounds)
     check()
 
     dt: float
