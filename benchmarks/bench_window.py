@@ -3,7 +3,7 @@
 Usage::
 
     QT_QPA_PLATFORM=offscreen .venv/bin/python benchmarks/bench_window.py [--sizes 1e6,1e7] [--csv]
-        [--cycles 100000] [--sample]
+        [--cycles 100000] [--sample] [--gaps]
 
 For each size it writes a synthetic capture (a current source charging a
 capacitor through its leakage, reset by a comparator; invented demo data) to
@@ -12,7 +12,9 @@ the layout scope exports use), opens it in a 1600 x 1000 window and prints:
 
 * open -> analysis shown, and open -> first paint of the plots, seconds;
 * the longest gap between ticks of a 10 ms QTimer from the open to the first
-  paint (how long the event loop was blocked);
+  paint (how long the event loop was blocked); with ``--gaps`` every gap over
+  30 ms, and when the analysis was shown (so a gap can be put on the job, the
+  window's taking in the answer, or the paint after it);
 * redraw times (synchronous repaint of the plots) for zoom-to-all, pans by a
   tenth of the view and zooms by 2x, median and worst, milliseconds;
 * the time and longest stall of a re-measure after the window moved.
@@ -66,17 +68,23 @@ def _write_csv(path: Path, v: np.ndarray, dt: float) -> None:
 class StallMeter:
     """Largest gap between ticks of a 10 ms timer: how long the event loop was blocked."""
 
+    #: Gaps longer than this are listed (``gaps``), seconds.
+    LISTED_S = 0.03
+
     def __init__(self) -> None:
         from PySide6 import QtCore
         self.timer = QtCore.QTimer()
         self.timer.setInterval(10)
         self.timer.timeout.connect(self._tick)
         self.worst = 0.0
-        self._last = time.perf_counter()
+        self._last = self._start = time.perf_counter()
+        #: (start from the meter's start, length), seconds, of every gap over LISTED_S
+        self.gaps: list[tuple[float, float]] = []
 
     def start(self) -> None:
         self.worst = 0.0
-        self._last = time.perf_counter()
+        self.gaps = []
+        self._last = self._start = time.perf_counter()
         self.timer.start()
 
     def stop(self) -> float:
@@ -86,7 +94,10 @@ class StallMeter:
 
     def _tick(self) -> None:
         now = time.perf_counter()
-        self.worst = max(self.worst, now - self._last)
+        gap = now - self._last
+        self.worst = max(self.worst, gap)
+        if gap > self.LISTED_S:
+            self.gaps.append((self._last - self._start, gap))
         self._last = now
 
 
@@ -130,7 +141,8 @@ def _repaint_ms(win, move, repeats: int) -> list[float]:
     return out
 
 
-def bench_file(app, path: Path, label: str, sample_interval_s: float | None) -> None:
+def bench_file(app, path: Path, label: str, sample_interval_s: float | None,
+               show_gaps: bool = False) -> None:
     from trueslope.app.store import Store
     from trueslope.app.window import MainWindow
 
@@ -162,6 +174,10 @@ def bench_file(app, path: Path, label: str, sample_interval_s: float | None) -> 
     print(f"  open -> analysis shown   {shown[0] - t0:8.3f} s")
     print(f"  open -> first paint      {stamp[0] - t0:8.3f} s")
     print(f"  longest event-loop stall {1e3 * stall:8.1f} ms (10 ms timer, open to first paint)")
+    if show_gaps:
+        print("  gaps over 30 ms: " + (", ".join(f"{1e3 * g:.0f} ms at {a:.3f} s"
+                                              for a, g in meter.gaps) or "none")
+              + f"; analysis shown at {shown[0] - t0:.3f} s")
 
     plot = win.plots.trace_plot
 
@@ -210,6 +226,9 @@ def main(argv: list[str] | None = None) -> int:
     p.add_argument("--cycles", type=int, default=20, help="cycles in each capture (default 20)")
     p.add_argument("--sample", action="store_true",
                    help="first open the bundled sample_captures/film_cap_ramp.csv")
+    p.add_argument("--gaps", action="store_true",
+                   help="list every event-loop gap over 30 ms from open to first paint, and "
+                        "when the analysis was shown")
     args = p.parse_args(argv)
     sizes = [int(float(s)) for s in args.sizes.split(",") if s.strip()]
 
@@ -221,13 +240,13 @@ def main(argv: list[str] | None = None) -> int:
           f"{time.perf_counter() - t_start:.2f} s)")
     if args.sample:
         bench_file(app, Path(__file__).resolve().parents[1] / "sample_captures" /
-                   "film_cap_ramp.csv", "bundled sample (CSV)", None)
+                   "film_cap_ramp.csv", "bundled sample (CSV)", None, args.gaps)
     with tempfile.TemporaryDirectory() as tmp:
         for n in sizes:
             v, dt = synthetic_ramp(n, cycles=args.cycles)
             path = Path(tmp) / f"ramp_{n}.npy"
             np.save(path, v)
-            bench_file(app, path, f"{n / 1e6:g} M samples (.npy)", dt)
+            bench_file(app, path, f"{n / 1e6:g} M samples (.npy)", dt, args.gaps)
         if args.csv and sizes:
             n = min(sizes)
             v, dt = synthetic_ramp(n, cycles=args.cycles)
@@ -235,7 +254,7 @@ def main(argv: list[str] | None = None) -> int:
             t0 = time.perf_counter()
             _write_csv(path, v, dt)
             print(f"(wrote {path.name}, {path.stat().st_size / 1e6:.0f} MB, in {time.perf_counter() - t0:.1f} s)")
-            bench_file(app, path, f"{n / 1e6:g} M samples (CSV)", None)
+            bench_file(app, path, f"{n / 1e6:g} M samples (CSV)", None, args.gaps)
     return 0
 
 
