@@ -142,9 +142,12 @@ class PlotArea(pg.GraphicsLayoutWidget):
         self.residual_plot.addItem(self.band_copy, ignoreBounds=True)
         self.zero_line = pg.InfiniteLine(0.0, angle=0, pen=_pen(theme.ZERO_LINE, 1))
         self.residual_plot.addItem(self.zero_line, ignoreBounds=True)
+        # dots only (no line to keep within Qt's drawing range), so no dynamic range
+        # limit: with one, every change of the strip's vertical range rebuilt all the
+        # dots (three times per new analysis, about 7 ms each for 2000 of them)
         self.residual_points = pg.PlotDataItem(
             pen=None, symbol="o", symbolSize=3, symbolPen=None,
-            symbolBrush=pg.mkBrush(*theme.RESIDUAL_POINTS))
+            symbolBrush=pg.mkBrush(*theme.RESIDUAL_POINTS), dynamicRangeLimit=None)
         self.residual_plot.addItem(self.residual_points)
         self.residual_smooth = pg.PlotDataItem(pen=_pen(theme.RESIDUAL_SMOOTH, 2), connect="finite")
         self.residual_plot.addItem(self.residual_smooth)
