@@ -162,9 +162,9 @@ class PlotArea(pg.GraphicsLayoutWidget):
             ax = plot.getAxis(name)
             ax.setPen(_pen(theme.PLOT_FOREGROUND))
             ax.setTextPen(_pen(theme.PLOT_FOREGROUND))
-            # major and minor ticks and grid lines, not pyqtgraph's third, faintest level:
-            # its lines, drawn across the whole plot, cost half of every redraw
-            ax.setStyle(maxTickLevel=1)
+            # major ticks and grid lines only: pyqtgraph's minor and faintest levels, drawn
+            # across the whole plot, cost two thirds of every redraw with software rendering
+            ax.setStyle(maxTickLevel=0)
         plot.getAxis("left").setWidth(_AXIS_WIDTH)
         plot.getAxis("right").setWidth(_AXIS_WIDTH)
 
