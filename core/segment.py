@@ -14,8 +14,7 @@ import dataclasses
 import numpy as np
 
 from .artefacts import Clipping, extremes, find_clipping, find_spikes, without_spikes
-from .crossings import (Crossings, crossing_in, enter_leave, find_crossings, first_up_after,
-                        last_up_before, with_fractions)
+from .crossings import crossings_up, enter_leave, first_up_after, last_up_before
 from .edges import (fast_corners, interpolate_crossing, local_crossing, slow_corners,
                     window_argext)
 from .errors import NoFullCycleError, NotASawtoothError
@@ -303,40 +302,25 @@ def _segment_signal(x: np.ndarray, levels: StateLevels, sample_interval_s: float
     fast = int(np.max(down_end - down_start)) if down_end.size else 1
     approx_period = float(np.median(np.diff(down_end))) if down_end.size > 1 else float(n)
     width = int(min(max(4, 2 * fast + int(0.02 * approx_period)), max(4, int(0.25 * approx_period))))
-    top, bottom = clip.top_v is not None, clip.bottom_v is not None
-    if direction == "falling":
-        top, bottom = bottom, top
-    # every crossing the edges and the ramp's ends need, from one pass over the record
-    found = _crossings(x, lo_m, span, (bottom, top), down=(0.1, 0.5, 0.9))
-    t50 = crossing_in(x, found.down[0.5], mid, down_start, down_end, "last")
+    t50 = local_crossing(x, down_start, down_end, mid, "last")
     ok = np.isfinite(t50)
     down_end, down_start, t50 = down_end[ok], down_start[ok], t50[ok]
     if down_end.size < 2:
         raise NoFullCycleError("fewer than two clean reset edges in the record")
     reset_idx = t50
+    top, bottom = clip.top_v is not None, clip.bottom_v is not None
+    if direction == "falling":
+        top, bottom = bottom, top
     return _build(x, lo_m, span, levels, direction, "signal", sample_interval_s, t0_s,
                   reset_idx, np.ceil(t50).astype(np.int64), down_start, down_end, width,
-                  float(np.median(np.diff(reset_idx))), noise, step, clipped=(bottom, top),
-                  found=found)
-
-
-def _crossings(xm: np.ndarray, lo_m: float, span: float, clipped: tuple[bool, bool],
-               down: tuple[float, ...] = (0.1, 0.9)) -> Crossings:
-    """The crossings :func:`_build` reads (keys: fractions of the span above ``lo_m``): the
-    edges' downward 10 % and 90 % (and any other ``down``), and the ramps' upward 10 % and
-    30 % for a dwell at the bottom and 70 % and 90 % for a plateau at the top, where the
-    record is not clipped there."""
-    up = ((0.1, 0.3) if not clipped[0] else ()) + ((0.7, 0.9) if not clipped[1] else ())
-    return find_crossings(xm, {f: lo_m + f * span for f in up},
-                          {f: lo_m + f * span for f in down})
+                  float(np.median(np.diff(reset_idx))), noise, step, clipped=(bottom, top))
 
 
 def _build(xm: np.ndarray, lo_m: float, span: float, levels: StateLevels, direction: str,
            source: str, dt: float, t0: float, reset_idx: np.ndarray, i50: np.ndarray,
            before: np.ndarray, after: np.ndarray, width: int,
            period_samples: float, noise: float, step: float | None,
-           clipped: tuple[bool, bool] = (False, False),
-           found: Crossings | None = None) -> Segmentation:
+           clipped: tuple[bool, bool] = (False, False)) -> Segmentation:
     """Retrace extent and ramp boundaries of every cycle, shared by both segmenters.
 
     Parameters
@@ -357,9 +341,6 @@ def _build(xm: np.ndarray, lo_m: float, span: float, levels: StateLevels, direct
     clipped : (bool, bool)
         The record is clipped at its low / high level (measurement frame): a flat
         stretch there is the clipping, not a dwell or a plateau, and stays in the ramp.
-    found : Crossings, optional
-        :func:`_crossings` of ``xm`` with these levels and ``clipped``, when the caller
-        has them already.
 
     The retrace runs from the fast edge's 90 % crossing to its 10 % crossing,
     each extrapolated along the edge (by 1/8 of the 90-10 % time) to the
@@ -369,10 +350,8 @@ def _build(xm: np.ndarray, lo_m: float, span: float, levels: StateLevels, direct
     the retrace.
     """
     n = xm.size
-    if found is None:
-        found = _crossings(xm, lo_m, span, clipped)
-    t90 = crossing_in(xm, found.down[0.9], lo_m + 0.9 * span, before - width, i50, "last")
-    t10 = crossing_in(xm, found.down[0.1], lo_m + 0.1 * span, i50 - 1, after + width, "first")
+    t90 = local_crossing(xm, before - width, i50, lo_m + 0.9 * span, "last")
+    t10 = local_crossing(xm, i50 - 1, after + width, lo_m + 0.1 * span, "first")
     fall = t10 - t90
     ext = 0.125 * fall
     ok = np.isfinite(fall)
@@ -391,8 +370,9 @@ def _build(xm: np.ndarray, lo_m: float, span: float, levels: StateLevels, direct
         peak, trough = fast_corners(xm, peak, trough, t90, t10, fast, period_samples, tol)
     trough = np.maximum(trough, peak + 1e-3)
     # the 10 % and 30 % upward crossings for a dwell at the bottom, the 70 % and 90 % ones
-    # for a plateau at the top
-    up = {f: with_fractions(xm, i, lo_m + f * span) for f, i in found.up.items()}
+    # for a plateau at the top (one pass over the record for all that are needed)
+    fractions = ((0.1, 0.3) if not clipped[0] else ()) + ((0.7, 0.9) if not clipped[1] else ())
+    up = dict(zip(fractions, crossings_up(xm, [lo_m + f * span for f in fractions])))
     starts = trough if clipped[0] else _skip_low_dwell(up[0.1], up[0.3], trough,
                                                        np.append(peak[1:], n), period_samples)
     ends = peak[1:] if clipped[1] else _cut_high_plateau(up[0.7], up[0.9], peak[1:],

@@ -1,6 +1,6 @@
 """The segmenter's one-pass threshold crossings and local lines equal their direct definitions.
 
-``crossings.find_crossings`` (crossings of several levels at once, both ways) and
+``crossings.crossings_up`` (upward crossings of several levels at once) and
 ``crossings.enter_leave`` (entering and leaving the bands above and below the Schmitt
 thresholds) read the record once, a block at a time, through a count of the levels it lies
 above. Reference: the definition written out with numpy boolean arrays over the whole
@@ -28,9 +28,7 @@ def test_upward_crossings_of_several_levels_at_once(seed, n):
     x = _walk(seed, n)
     rng = np.random.default_rng(seed + 100)
     levels = list(rng.choice(x, 3)) + [float(np.median(x))]  # ties with samples; any order
-    found = crossings.find_crossings(x, dict(enumerate(levels)), dict(enumerate(levels)))
-    for j, level in enumerate(levels):
-        i, frac = crossings.with_fractions(x, found.up[j], level)
+    for (i, frac), level in zip(crossings.crossings_up(x, levels), levels):
         c = x > level
         want = np.flatnonzero(c[1:] & ~c[:-1]) + 1
         assert np.array_equal(i, want)
@@ -75,29 +73,3 @@ def test_local_lines_equal_the_centred_sums_written_out():
         b = ((k - kb[:, None]) * (y - yb[:, None])).sum(axis=1) / np.where(sxx > 0, sxx, 1.0)
         got_a, got_b = _local_lines(xm, first, m)
         assert np.array_equal(got_b, b) and np.array_equal(got_a, yb - b * kb), trial
-
-
-@pytest.mark.parametrize("seed,n", [(10, 50), (11, 9000), (12, 2 * crossings.CROSSING_BLOCK + 5)])
-def test_downward_crossings_and_windows_equal_the_gathered_windows(seed, n):
-    """``find_crossings`` gives the downward crossings of ``x < level`` as numpy defines
-    them, and ``crossing_in`` over them answers each window as ``edges.local_crossing``,
-    which gathers every window's samples (reference: that function, and the boolean
-    definition), first and last, empty windows and windows past the ends included."""
-    from trueslope.core.edges import local_crossing
-    x = _walk(seed, n)
-    rng = np.random.default_rng(seed + 7)
-    levels = {0.1: float(np.quantile(x, 0.1)), 0.5: float(x[n // 2]), 0.9: float(np.quantile(x, 0.9))}
-    up = {0.3: float(np.quantile(x, 0.3))}
-    found = crossings.find_crossings(x, up, levels)
-    c = x > up[0.3]
-    assert np.array_equal(found.up[0.3], np.flatnonzero(c[1:] & ~c[:-1]) + 1)
-    lo = rng.integers(-20, n + 20, 400)
-    hi = lo + rng.integers(-3, 60, 400)
-    for key, level in levels.items():
-        b = x < level
-        assert np.array_equal(found.down[key], np.flatnonzero(b[1:] & ~b[:-1]) + 1)
-        for which in ("first", "last"):
-            got = crossings.crossing_in(x, found.down[key], level, lo, hi, which)
-            want = local_crossing(x, lo, hi, level, which)
-            assert np.array_equal(np.isnan(got), np.isnan(want))
-            assert np.array_equal(got[~np.isnan(got)], want[~np.isnan(want)])
