@@ -3,7 +3,7 @@
 Usage::
 
     QT_QPA_PLATFORM=offscreen .venv/bin/python benchmarks/bench_window.py [--sizes 1e6,1e7] [--csv]
-        [--cycles 100000] [--sample] [--gaps]
+        [--cycles 100000] [--sample] [--gaps] [--opens 3]
 
 For each size it writes a synthetic capture (a current source charging a
 capacitor through its leakage, reset by a comparator; invented demo data) to
@@ -141,8 +141,9 @@ def _repaint_ms(win, move, repeats: int) -> list[float]:
     return out
 
 
-def bench_file(app, path: Path, label: str, sample_interval_s: float | None,
-               show_gaps: bool = False) -> None:
+def _open_once(app, path: Path, sample_interval_s: float | None):
+    """Open ``path`` in a new window: (window, analysis shown s, first paint s, longest
+    stall s, gaps), or (None, message) when it could not be opened."""
     from trueslope.app.store import Store
     from trueslope.app.window import MainWindow
 
@@ -164,20 +165,49 @@ def bench_file(app, path: Path, label: str, sample_interval_s: float | None,
     win.open_file(str(path))
     _wait(app, lambda: shown or failed)
     if failed:
-        print(f"{label}: could not open: {failed[0]}")
         win.close()
-        return
+        return None, failed[0]
     _wait(app, lambda: stamp, 30)
     stall = meter.stop()
+    return win, shown[0] - t0, stamp[0] - t0, stall, list(meter.gaps)
+
+
+def _spread(values: list[float], scale: float, fmt: str) -> str:
+    """The median, and the range when there are several."""
+    med = statistics.median(values)
+    text = f"{scale * med:{fmt}}"
+    if len(values) > 1:
+        text += f" (min {scale * min(values):{fmt}}, max {scale * max(values):{fmt}})"
+    return text
+
+
+def bench_file(app, path: Path, label: str, sample_interval_s: float | None,
+               show_gaps: bool = False, opens: int = 1) -> None:
+    runs = []
+    win = None
+    for k in range(max(1, opens)):
+        if win is not None:
+            win.close()
+            app.processEvents()
+        got = _open_once(app, path, sample_interval_s)
+        if got[0] is None:
+            print(f"{label}: could not open: {got[1]}")
+            return
+        win = got[0]
+        runs.append(got[1:])
     a = win.analysis
-    print(f"{label}: {a.samples:,} samples, {a.figures.full_cycles} cycles")
-    print(f"  open -> analysis shown   {shown[0] - t0:8.3f} s")
-    print(f"  open -> first paint      {stamp[0] - t0:8.3f} s")
-    print(f"  longest event-loop stall {1e3 * stall:8.1f} ms (10 ms timer, open to first paint)")
+    shown_s, paint_s, stalls, gaps = zip(*runs)
+    many = f", median of {len(runs)} opens" if len(runs) > 1 else ""
+    print(f"{label}: {a.samples:,} samples, {a.figures.full_cycles} cycles{many}")
+    print(f"  open -> analysis shown   {_spread(list(shown_s), 1, '8.3f')} s")
+    print(f"  open -> first paint      {_spread(list(paint_s), 1, '8.3f')} s")
+    print(f"  longest event-loop stall {_spread(list(stalls), 1e3, '8.1f')} ms (10 ms timer, "
+          f"open to first paint)")
     if show_gaps:
-        print("  gaps over 30 ms: " + (", ".join(f"{1e3 * g:.0f} ms at {a:.3f} s"
-                                              for a, g in meter.gaps) or "none")
-              + f"; analysis shown at {shown[0] - t0:.3f} s")
+        for (shown, _, _, g) in runs:
+            print("  gaps over 30 ms: " + (", ".join(f"{1e3 * d:.0f} ms at {t:.3f} s"
+                                                  for t, d in g) or "none")
+                  + f"; analysis shown at {shown:.3f} s")
 
     plot = win.plots.trace_plot
 
@@ -207,14 +237,22 @@ def bench_file(app, path: Path, label: str, sample_interval_s: float | None,
         print(f"  redraw {name:<12s}  median {statistics.median(ms):7.1f} ms   worst {max(ms):7.1f} ms")
 
     # Re-measure after the window moved: the capture is reused, not re-read.
-    shown.clear()
+    shown: list[float] = []
+    failed: list[str] = []
+    win.analysis_shown.connect(lambda _a: shown.append(time.perf_counter()))
+    win.job_failed.connect(failed.append)
     av = a.averaged
+    meter = StallMeter()
     meter.start()
     t0 = time.perf_counter()
     win.reanalyse("benchmark", window_s=(0.1 * av.ramp_time_s, 0.9 * av.ramp_time_s))
     _wait(app, lambda: shown or failed)
     stall = meter.stop()
-    print(f"  re-measure (window moved) {shown[0] - t0:7.3f} s, longest stall {1e3 * stall:6.1f} ms")
+    if failed:
+        print(f"  re-measure failed: {failed[0]}")
+    else:
+        print(f"  re-measure (window moved) {shown[0] - t0:7.3f} s, longest stall "
+              f"{1e3 * stall:6.1f} ms")
     win.close()
     app.processEvents()
 
@@ -226,6 +264,9 @@ def main(argv: list[str] | None = None) -> int:
     p.add_argument("--cycles", type=int, default=20, help="cycles in each capture (default 20)")
     p.add_argument("--sample", action="store_true",
                    help="first open the bundled sample_captures/film_cap_ramp.csv")
+    p.add_argument("--opens", type=int, default=1,
+                   help="open each capture this many times (a new window each) and print the "
+                        "median and range of the open figures (default 1)")
     p.add_argument("--gaps", action="store_true",
                    help="list every event-loop gap over 30 ms from open to first paint, and "
                         "when the analysis was shown")
@@ -240,13 +281,13 @@ def main(argv: list[str] | None = None) -> int:
           f"{time.perf_counter() - t_start:.2f} s)")
     if args.sample:
         bench_file(app, Path(__file__).resolve().parents[1] / "sample_captures" /
-                   "film_cap_ramp.csv", "bundled sample (CSV)", None, args.gaps)
+                   "film_cap_ramp.csv", "bundled sample (CSV)", None, args.gaps, args.opens)
     with tempfile.TemporaryDirectory() as tmp:
         for n in sizes:
             v, dt = synthetic_ramp(n, cycles=args.cycles)
             path = Path(tmp) / f"ramp_{n}.npy"
             np.save(path, v)
-            bench_file(app, path, f"{n / 1e6:g} M samples (.npy)", dt, args.gaps)
+            bench_file(app, path, f"{n / 1e6:g} M samples (.npy)", dt, args.gaps, args.opens)
         if args.csv and sizes:
             n = min(sizes)
             v, dt = synthetic_ramp(n, cycles=args.cycles)
@@ -254,7 +295,7 @@ def main(argv: list[str] | None = None) -> int:
             t0 = time.perf_counter()
             _write_csv(path, v, dt)
             print(f"(wrote {path.name}, {path.stat().st_size / 1e6:.0f} MB, in {time.perf_counter() - t0:.1f} s)")
-            bench_file(app, path, f"{n / 1e6:g} M samples (CSV)", None, args.gaps)
+            bench_file(app, path, f"{n / 1e6:g} M samples (CSV)", None, args.gaps, args.opens)
     return 0
 
 
