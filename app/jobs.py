@@ -17,6 +17,7 @@ Progress and cancel reach the core through its plain callbacks
 from __future__ import annotations
 
 import itertools
+import math
 import threading
 import time
 from dataclasses import dataclass, field
@@ -146,9 +147,12 @@ class JobResult:
 def trace_for(capture: Capture, channel: str) -> TraceData:
     """Time and voltage of one channel, ready to plot."""
     _, v = capture.channel(channel)
-    finite = bool(np.isfinite(v).all())
-    span = (float(np.min(v)), float(np.max(v))) if finite and v.size else None
-    return TraceData(capture.time_s(), v, finite, span)
+    if not v.size:
+        return TraceData(capture.time_s(), v, True)
+    # a NaN makes both bounds NaN and an infinity one of them: finite bounds, finite samples
+    lo, hi = float(np.min(v)), float(np.max(v))
+    finite = math.isfinite(lo) and math.isfinite(hi)
+    return TraceData(capture.time_s(), v, finite, (lo, hi) if finite else None)
 
 
 def _raw_trace(capture: Capture, channel: str | int | None) -> TraceData | None:
